@@ -1,0 +1,281 @@
+"""Vectorised thermodynamics on plain SI arrays (K, Pa, m, kg/kg).
+
+Every function broadcasts over any leading dimensions; profile functions take the vertical ``level`` axis
+last. MetPy is the reference these are checked against in ``tests/test_thermo.py``; it is not called here so
+that the hot paths stay plain numpy.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = [
+    "RD", "RV", "EPSILON", "G0", "CP_D", "T0",
+    "saturation_vapor_pressure_water", "saturation_vapor_pressure_ice", "dewpoint_from_vapor_pressure",
+    "relative_humidity_water", "relative_humidity_ice", "dewpoint_from_relative_humidity",
+    "saturation_mixing_ratio", "mixing_ratio_from_dewpoint", "virtual_temperature",
+    "hypsometric_heights", "interp_last_axis", "height_at_pressure", "pressure_at_height",
+    "standard_atmosphere_pressure", "standard_atmosphere_height", "standard_atmosphere_temperature",
+    "pressure_altitude_ft", "pressure_from_pressure_altitude_ft", "flight_level_to_pressure",
+]
+
+RD = 287.04749097718457  # J/(kg K), dry air (as MetPy)
+RV = 461.52311572606084  # J/(kg K), water vapour (as MetPy)
+EPSILON = RD / RV
+G0 = 9.80665  # m/s2, standard gravity (exact, used for geopotential metres)
+CP_D = 1004.6662184201462  # J/(kg K), dry air at constant pressure (as MetPy)
+T0 = 273.15  # K
+
+
+def saturation_vapor_pressure_water(temperature):
+    """Saturation vapour pressure over plane liquid water, Pa.
+
+    Murphy and Koop (2005), Q. J. R. Meteorol. Soc. 131, 1539-1565, eq. (10); valid 123-332 K, so it holds
+    for supercooled water down to the homogeneous-freezing range.
+
+    .. math:: \\ln e_w = 54.842763 - 6763.22/T - 4.210 \\ln T + 0.000367 T
+              + \\tanh(0.0415 (T - 218.8)) (53.878 - 1331.22/T - 9.44523 \\ln T + 0.014025 T)
+    """
+    t = np.asarray(temperature, dtype=float)
+    lt = np.log(t)
+    return np.exp(
+        54.842763 - 6763.22 / t - 4.210 * lt + 0.000367 * t
+        + np.tanh(0.0415 * (t - 218.8)) * (53.878 - 1331.22 / t - 9.44523 * lt + 0.014025 * t)
+    )
+
+
+def _dln_esw_dt(t):
+    """Derivative of ln e_w (Murphy and Koop 2005, eq. 10) with respect to T, 1/K."""
+    lt = np.log(t)
+    th = np.tanh(0.0415 * (t - 218.8))
+    return (
+        6763.22 / t**2 - 4.210 / t + 0.000367
+        + 0.0415 * (1.0 - th**2) * (53.878 - 1331.22 / t - 9.44523 * lt + 0.014025 * t)
+        + th * (1331.22 / t**2 - 9.44523 / t + 0.014025)
+    )
+
+
+def saturation_vapor_pressure_ice(temperature):
+    """Saturation vapour pressure over plane ice, Pa.
+
+    Murphy and Koop (2005), eq. (7); valid above 110 K.
+
+    .. math:: \\ln e_i = 9.550426 - 5723.265/T + 3.53068 \\ln T - 0.00728332 T
+    """
+    t = np.asarray(temperature, dtype=float)
+    return np.exp(9.550426 - 5723.265 / t + 3.53068 * np.log(t) - 0.00728332 * t)
+
+
+def dewpoint_from_vapor_pressure(vapor_pressure):
+    """Dewpoint (K) at which liquid water saturates at the given vapour pressure (Pa).
+
+    Inverts Murphy and Koop (2005) eq. (10): a first guess by the inverse of Bolton (1980, Mon. Wea. Rev.
+    108, eq. 10), then three Newton steps (converged to better than 1e-6 K over 180-330 K).
+    """
+    e = np.asarray(vapor_pressure, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x = np.log(e / 611.2)
+        t = 243.5 * x / (17.67 - x) + T0
+        for _ in range(3):
+            t = t - (np.log(saturation_vapor_pressure_water(t)) - np.log(e)) / _dln_esw_dt(t)
+    return t
+
+
+def relative_humidity_water(temperature, dewpoint):
+    """Relative humidity with respect to liquid water (fraction, 0-1) from temperature and dewpoint (K)."""
+    return saturation_vapor_pressure_water(dewpoint) / saturation_vapor_pressure_water(temperature)
+
+
+def relative_humidity_ice(temperature, dewpoint):
+    """Relative humidity with respect to ice (fraction) from temperature and dewpoint (K).
+
+    The dewpoint is over water (WMO convention), so the vapour pressure is e_w(Td); the ratio is to e_i(T).
+    Above 0 deg C the ice value has no physical meaning and equals the ratio to e_i all the same.
+    """
+    return saturation_vapor_pressure_water(dewpoint) / saturation_vapor_pressure_ice(temperature)
+
+
+def dewpoint_from_relative_humidity(temperature, relative_humidity):
+    """Dewpoint (K) from temperature (K) and relative humidity over water (fraction)."""
+    return dewpoint_from_vapor_pressure(relative_humidity * saturation_vapor_pressure_water(temperature))
+
+
+def saturation_mixing_ratio(pressure, temperature, over_ice=False):
+    """Saturation mixing ratio (kg/kg) at pressure (Pa) and temperature (K), over water or over ice.
+
+    .. math:: w_s = \\varepsilon e_s / (p - e_s)
+    """
+    es = saturation_vapor_pressure_ice(temperature) if over_ice else saturation_vapor_pressure_water(temperature)
+    return EPSILON * es / np.maximum(np.asarray(pressure, dtype=float) - es, 1e-3)
+
+
+def mixing_ratio_from_dewpoint(pressure, dewpoint):
+    """Water-vapour mixing ratio (kg/kg) from pressure (Pa) and dewpoint (K)."""
+    return saturation_mixing_ratio(pressure, dewpoint)
+
+
+def virtual_temperature(temperature, mixing_ratio):
+    """Virtual temperature (K): T (w + eps) / (eps (1 + w)) (Wallace and Hobbs 2006, eq. 3.59)."""
+    w = np.asarray(mixing_ratio, dtype=float)
+    return np.asarray(temperature, dtype=float) * (w + EPSILON) / (EPSILON * (1.0 + w))
+
+
+def hypsometric_heights(pressure, temperature, dewpoint=None, anchor_height=None, anchor_index=0):
+    """Geopotential heights (m) of a profile by the hypsometric equation.
+
+    .. math:: z_2 - z_1 = \\frac{R_d \\bar T_v}{g_0} \\ln \\frac{p_1}{p_2}
+
+    with the layer-mean virtual temperature taken as the mean of the two levels (exact for a temperature
+    linear in ln p). Pressure (Pa) and temperature (K) have the level axis last; missing temperatures or
+    dewpoints (NaN) are interpolated in ln p from their neighbours. The result is relative to the level
+    ``anchor_index`` unless ``anchor_height`` (m, per profile) is given.
+    """
+    p = np.asarray(pressure, dtype=float)
+    t = _fill_in_logp(p, np.asarray(temperature, dtype=float))
+    if dewpoint is not None:
+        td = _fill_in_logp(p, np.asarray(dewpoint, dtype=float))
+        w = np.where(np.isfinite(td), mixing_ratio_from_dewpoint(p, td), 0.0)
+        tv = virtual_temperature(t, w)
+    else:
+        tv = t
+    lp = np.log(p)
+    dz = RD / G0 * 0.5 * (tv[..., 1:] + tv[..., :-1]) * (lp[..., :-1] - lp[..., 1:])
+    z = np.concatenate([np.zeros(p.shape[:-1] + (1,)), np.cumsum(dz, axis=-1)], axis=-1)
+    z = z - np.take(z, [anchor_index], axis=-1)
+    if anchor_height is not None:
+        z = z + np.asarray(anchor_height, dtype=float)[..., None]
+    return z
+
+
+def _fill_in_logp(p, values):
+    """Fill NaN values along the last axis by linear interpolation in ln p (constant beyond the ends)."""
+    if np.all(np.isfinite(values)):
+        return values
+    out = np.array(values, dtype=float, copy=True)
+    flat_p = np.log(p).reshape(-1, p.shape[-1])
+    flat_v = out.reshape(-1, out.shape[-1])
+    for row in range(flat_v.shape[0]):  # only rows with gaps reach here, and profiles have few
+        ok = np.isfinite(flat_v[row]) & np.isfinite(flat_p[row])
+        if ok.sum() == 0 or ok.all():
+            continue
+        x = -flat_p[row]
+        flat_v[row, ~ok] = np.interp(x[~ok], x[ok], flat_v[row, ok])
+    return out
+
+
+def interp_last_axis(x, xp, fp):
+    """Linear interpolation along the last axis with leading dimensions broadcast.
+
+    ``xp`` (..., n) must increase along the last axis; NaN entries of ``xp`` or ``fp`` are ignored. Points
+    outside the finite range of ``xp`` give NaN (never an extrapolated value). ``x`` is (..., m).
+    """
+    x = np.asarray(x, dtype=float)
+    xp = np.asarray(xp, dtype=float)
+    fp = np.asarray(fp, dtype=float)
+    ok = np.isfinite(xp) & np.isfinite(fp)
+    big = np.where(ok, xp, np.inf)
+    # Sort so the finite points come first in increasing order; NaN slots go to the end.
+    order = np.argsort(big, axis=-1, kind="stable")
+    xs = np.take_along_axis(big, order, axis=-1)
+    fs = np.take_along_axis(np.where(ok, fp, np.nan), order, axis=-1)
+    n_ok = ok.sum(axis=-1)
+    shape = np.broadcast_shapes(x.shape[:-1], xs.shape[:-1])
+    x = np.broadcast_to(x, shape + x.shape[-1:])
+    xs = np.broadcast_to(xs, shape + xs.shape[-1:])
+    fs = np.broadcast_to(fs, shape + fs.shape[-1:])
+    n_ok = np.broadcast_to(n_ok, shape)
+    idx = (xs[..., None, :] <= x[..., :, None]).sum(axis=-1)  # (..., m): points at or below x
+    hi = np.clip(idx, 1, np.maximum(n_ok[..., None] - 1, 1))
+    lo = hi - 1
+    x0 = np.take_along_axis(xs, lo, axis=-1)
+    x1 = np.take_along_axis(xs, hi, axis=-1)
+    f0 = np.take_along_axis(fs, lo, axis=-1)
+    f1 = np.take_along_axis(fs, hi, axis=-1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(x1 > x0, (x - x0) / (x1 - x0), 0.0)
+        out = f0 + w * (f1 - f0)
+    first = xs[..., :1]
+    last = np.take_along_axis(xs, np.maximum(n_ok[..., None] - 1, 0), axis=-1)
+    inside = (x >= first) & (x <= last) & (n_ok[..., None] >= 1)
+    single = (n_ok[..., None] == 1) & (x == first)
+    out = np.where(single, fs[..., :1], out)
+    return np.where(inside, out, np.nan)
+
+
+def height_at_pressure(pressure, profile_pressure, profile_height):
+    """Height (m) at the given pressures (Pa), linear in ln p within each profile; NaN outside it."""
+    return interp_last_axis(-np.log(pressure), -np.log(profile_pressure), profile_height)
+
+
+def pressure_at_height(height, profile_pressure, profile_height):
+    """Pressure (Pa) at the given heights (m), ln p linear in height within each profile; NaN outside it."""
+    return np.exp(interp_last_axis(height, profile_height, np.log(profile_pressure)))
+
+
+# US Standard Atmosphere 1976 (identical to the ICAO standard atmosphere below 32 km): geopotential
+# base heights (m), lapse rates (K/m), and base temperatures and pressures derived from them.
+_R_STD = 8314.32 / 28.9644  # J/(kg K), the 1976 standard's R*/M0
+_HB = np.array([0.0, 11000.0, 20000.0, 32000.0, 47000.0, 51000.0, 71000.0, 84852.0])
+_LB = np.array([-0.0065, 0.0, 0.001, 0.0028, 0.0, -0.0028, -0.002])
+_TB = np.concatenate([[288.15], 288.15 + np.cumsum(_LB * np.diff(_HB))])[:-1]
+
+
+def _pb():
+    pb = [101325.0]
+    for i in range(len(_LB) - 1):
+        dh = _HB[i + 1] - _HB[i]
+        if _LB[i] == 0.0:
+            pb.append(pb[-1] * np.exp(-G0 * dh / (_R_STD * _TB[i])))
+        else:
+            pb.append(pb[-1] * (_TB[i] / (_TB[i] + _LB[i] * dh)) ** (G0 / (_R_STD * _LB[i])))
+    return np.array(pb)
+
+
+_PB = _pb()
+
+
+def standard_atmosphere_temperature(height):
+    """Temperature (K) of the US Standard Atmosphere 1976 at geopotential height (m), 0-84.8 km."""
+    h = np.asarray(height, dtype=float)
+    i = np.clip(np.searchsorted(_HB, h, side="right") - 1, 0, len(_LB) - 1)
+    return _TB[i] + _LB[i] * (h - _HB[i])
+
+
+def standard_atmosphere_pressure(height):
+    """Pressure (Pa) of the US Standard Atmosphere 1976 at geopotential height (m); below 0 m the first
+    layer is extended (as altimetry does)."""
+    h = np.asarray(height, dtype=float)
+    i = np.clip(np.searchsorted(_HB, h, side="right") - 1, 0, len(_LB) - 1)
+    tb, lb, pb, hb = _TB[i], _LB[i], _PB[i], _HB[i]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        grad = pb * (tb / (tb + lb * (h - hb))) ** (G0 / (_R_STD * np.where(lb == 0, 1.0, lb)))
+        iso = pb * np.exp(-G0 * (h - hb) / (_R_STD * tb))
+    return np.where(lb == 0.0, iso, grad)
+
+
+def standard_atmosphere_height(pressure):
+    """Geopotential height (m) of the US Standard Atmosphere 1976 at pressure (Pa): the inverse of
+    :func:`standard_atmosphere_pressure`."""
+    p = np.asarray(pressure, dtype=float)
+    i = np.clip(len(_PB) - 1 - np.searchsorted(_PB[::-1], p, side="left"), 0, len(_LB) - 1)
+    tb, lb, pb, hb = _TB[i], _LB[i], _PB[i], _HB[i]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lbs = np.where(lb == 0, 1.0, lb)
+        grad = hb + tb / lbs * ((p / pb) ** (-_R_STD * lbs / G0) - 1.0)
+        iso = hb - _R_STD * tb / G0 * np.log(p / pb)
+    return np.where(lb == 0.0, iso, grad)
+
+
+def pressure_altitude_ft(pressure):
+    """Pressure altitude (ft) of a pressure (Pa): its height in the standard atmosphere."""
+    return standard_atmosphere_height(pressure) / 0.3048
+
+
+def pressure_from_pressure_altitude_ft(altitude_ft):
+    """Pressure (Pa) at a pressure altitude (ft)."""
+    return standard_atmosphere_pressure(np.asarray(altitude_ft, dtype=float) * 0.3048)
+
+
+def flight_level_to_pressure(flight_level):
+    """Pressure (Pa) of a flight level (hundreds of feet of pressure altitude): FL180 -> about 506 hPa."""
+    return pressure_from_pressure_altitude_ft(np.asarray(flight_level, dtype=float) * 100.0)
