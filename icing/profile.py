@@ -208,7 +208,7 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
     d = {k: np.asarray(v, dtype=float) for k, v in cols.items()}
     fl = np.asarray(out_flags, dtype=np.int32)
     ln = np.asarray(out_lines)
-    m = d["pressure"].size
+
 
     def rec2(j, action, reason, variable=None):
         entry = {"level": None, "pressure_hpa": round(float(d["pressure"][j]), 2), "action": action,
@@ -278,7 +278,7 @@ def _check_and_fill_heights(d, fl, record, elevation, log):
 
 
 def _to_dataset(d, flags, present, *, station, latitude, longitude, elevation, time, source, format, quality):
-    m = d["pressure"].size
+
     coords = {"level": np.arange(m)}
     data_vars = {}
     for name, (unit, std, long) in VARIABLES.items():

@@ -1,0 +1,114 @@
+"""The canonical profile builder and its quality checks."""
+
+import metpy.calc as mpcalc
+import numpy as np
+import pint
+import pytest
+from metpy.units import units
+from numpy.testing import assert_allclose
+
+from icing.errors import ProfileQualityError
+from icing.profile import QC_FLAGS, build_profile, stack_profiles
+
+P = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
+T = np.array([10.0, 6.0, 2.0, -8.0, -25.0])
+TD = np.array([8.0, 4.0, 0.0, -12.0, -35.0])
+
+
+def test_canonical_variables_have_pint_units_and_standard_names():
+    """Every variable's units attribute parses with pint (MetPy's quantify works); CF standard names set."""
+    ds = build_profile(P, T, dewpoint=TD, height=[100, 760, 1450, 2950, 5500])
+    q = ds.metpy.quantify()
+    assert isinstance(q["temperature"].data, pint.Quantity)
+    for name, std in [("pressure", "air_pressure"), ("temperature", "air_temperature"),
+                      ("dewpoint", "dew_point_temperature"), ("height", "geopotential_height")]:
+        assert ds[name].attrs["standard_name"] == std
+
+
+def test_dewpoint_derived_from_rh_matches_metpy():
+    """A missing dewpoint is derived from RH; checked against MetPy's dewpoint_from_relative_humidity."""
+    rh = np.array([90.0, 80.0, 95.0, 60.0, 40.0])
+    ds = build_profile(P, T, relative_humidity=rh)
+    ref = mpcalc.dewpoint_from_relative_humidity(T * units.degC, rh * units.percent).m_as("degC")
+    assert_allclose(ds["dewpoint"].values, ref, atol=0.15)
+    assert np.all(ds["qc_flag"].values & QC_FLAGS["dewpoint_derived"])
+
+
+def test_rh_derived_from_dewpoint_matches_metpy():
+    """A missing RH is derived from dewpoint; checked against MetPy's relative_humidity_from_dewpoint."""
+    ds = build_profile(P, T, dewpoint=TD)
+    ref = mpcalc.relative_humidity_from_dewpoint(T * units.degC, TD * units.degC).m_as("percent")
+    assert_allclose(ds["relative_humidity"].values, ref, rtol=5e-3)
+
+
+def test_sorted_by_decreasing_pressure_and_recorded():
+    """Levels given top-down come out surface first; the reordering is recorded (common practice)."""
+    ds = build_profile(P[::-1], T[::-1], dewpoint=TD[::-1])
+    assert np.all(np.diff(ds["pressure"].values) < 0)
+    assert any(e["action"] == "reordered" for e in ds.attrs["quality"])
+
+
+def test_heights_filled_hypsometrically_match_metpy_thickness():
+    """Missing heights are filled by the hypsometric equation (checked against MetPy's thickness)."""
+    ds = build_profile(P, T, dewpoint=TD, height=[100.0, np.nan, np.nan, np.nan, np.nan])
+    w = mpcalc.mixing_ratio_from_relative_humidity(P * units.hPa, T * units.degC,
+                                                   mpcalc.relative_humidity_from_dewpoint(T * units.degC,
+                                                                                          TD * units.degC))
+    ref = mpcalc.thickness_hydrostatic(P * units.hPa, T * units.degC, mixing_ratio=w).m_as("m")
+    assert_allclose(ds["height"].values[-1] - 100.0, ref, rtol=2e-3)
+    filled = [e for e in ds.attrs["quality"] if e["action"] == "filled"]
+    assert len(filled) == 4
+
+
+def test_bad_values_removed_and_recorded():
+    """Out-of-range values are removed and each is recorded with its reason (project policy)."""
+    ds = build_profile([1000, 850, 700, 500, -5], [10, 75, -8, -25, -30], dewpoint=[8, 0, -2, -35, -40],
+                       lines=[10, 11, 12, 13, 14])
+    reasons = {(e.get("line"), e["action"]) for e in ds.attrs["quality"]}
+    assert (11, "removed") in reasons  # temperature 75 degC
+    assert (12, "removed") in reasons  # dewpoint 6 degC above temperature
+    assert (14, "dropped") in reasons  # negative pressure
+    assert ds.sizes["level"] == 4
+    assert np.isnan(ds["temperature"].values[1])
+
+
+def test_dewpoint_slightly_above_temperature_clipped():
+    """A dewpoint above temperature by rounding (<= 1 degC) is set to the temperature and recorded."""
+    ds = build_profile([1000, 850], [5.0, 0.0], dewpoint=[5.4, -1.0])
+    assert ds["dewpoint"].values[0] == 5.0
+    assert ds.attrs["quality"][0]["action"] == "changed"
+
+
+def test_duplicate_levels_merged():
+    """Two rows at the same pressure become one level; the duplicate is recorded."""
+    ds = build_profile([1000, 850, 850, 700], [10, 2, 2.0, -8], dewpoint=[8, 0, 0, -12])
+    assert ds.sizes["level"] == 3
+    assert any(e["action"] == "merged" for e in ds.attrs["quality"])
+
+
+def test_too_few_levels():
+    with pytest.raises(ProfileQualityError, match="levels with a usable temperature"):
+        build_profile([1000.0], [10.0])
+
+
+def test_kelvin_under_degc_label():
+    """Temperatures all above 150 labelled degC are kelvin: the error suggests the unit."""
+    with pytest.raises(ProfileQualityError, match="kelvin"):
+        build_profile(P, T + 273.15)
+
+
+def test_quantities_in_any_unit():
+    """Quantities in Pa and K give the same profile as plain hPa and degC."""
+    a = build_profile(P, T, dewpoint=TD)
+    b = build_profile(P * 100 * units.Pa, (T + 273.15) * units.K, dewpoint=(TD * 1.8 + 32) * units.degF)
+    for name in ("pressure", "temperature", "dewpoint", "height"):
+        assert_allclose(a[name].values, b[name].values, rtol=1e-9, atol=1e-9)
+
+
+def test_stack_profiles_pads_levels():
+    a = build_profile(P, T, dewpoint=TD, station="A", time="2026-01-15T00:00Z")
+    b = build_profile(P[:3], T[:3], dewpoint=TD[:3], station="B", time="2026-01-15T12:00Z")
+    s = stack_profiles([a, b])
+    assert s.sizes == {"profile": 2, "level": 5}
+    assert np.isnan(s["temperature"].values[1, 3])
+    assert list(s["station"].values) == ["A", "B"]
