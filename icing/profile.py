@@ -209,7 +209,6 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
     fl = np.asarray(out_flags, dtype=np.int32)
     ln = np.asarray(out_lines)
 
-
     def rec2(j, action, reason, variable=None):
         entry = {"level": None, "pressure_hpa": round(float(d["pressure"][j]), 2), "action": action,
                  "reason": reason}
@@ -278,8 +277,7 @@ def _check_and_fill_heights(d, fl, record, elevation, log):
 
 
 def _to_dataset(d, flags, present, *, station, latitude, longitude, elevation, time, source, format, quality):
-
-    coords = {"level": np.arange(m)}
+    coords = {"level": np.arange(d["pressure"].size)}
     data_vars = {}
     for name, (unit, std, long) in VARIABLES.items():
         if name not in ("pressure", "temperature", "height", "dewpoint", "relative_humidity") and \
