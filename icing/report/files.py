@@ -1,0 +1,91 @@
+"""Machine-readable reports: segment CSV, full JSON, GeoJSON (RFC 7946), and the report folder."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from .. import CAUTION
+from ..units import FT
+
+__all__ = ["segments_csv", "segments_geojson", "write_reports"]
+
+
+def segments_csv(assessment) -> str:
+    """The segment table as CSV, the caution in a leading comment line."""
+    return f"# {CAUTION}\n" + assessment.segments.to_csv(index=False, float_format="%.4g")
+
+
+def _clean(v):
+    if isinstance(v, float | np.floating):
+        return None if math.isnan(v) else float(v)
+    if isinstance(v, np.integer):
+        return int(v)
+    if isinstance(v, np.bool_):
+        return bool(v)
+    return v
+
+
+def _split_antimeridian(coords):
+    """Split a line where it crosses the antimeridian (RFC 7946 section 3.1.9)."""
+    parts = [[coords[0]]]
+    for a, b in zip(coords[:-1], coords[1:], strict=True):
+        if abs(b[0] - a[0]) > 180.0:
+            # Interpolate the crossing latitude and close one part at +-180, open the next at -+180.
+            b0 = b[0] + (360.0 if b[0] < a[0] else -360.0)
+            f = ((180.0 if b0 > a[0] else -180.0) - a[0]) / (b0 - a[0])
+            lat = a[1] + f * (b[1] - a[1])
+            alt = a[2] + f * (b[2] - a[2])
+            edge = 180.0 if b0 > a[0] else -180.0
+            parts[-1].append([edge, lat, alt])
+            parts.append([[-edge, lat, alt]])
+        parts[-1].append(b)
+    return parts
+
+
+def segments_geojson(assessment) -> dict:
+    """A FeatureCollection with one LineString (MultiLineString across the antimeridian) per segment.
+
+    Positions are ``[longitude, latitude, altitude_m]`` (RFC 7946 order; altitude in metres, as flown: MSL or
+    pressure altitude as the segment's ``flight_level`` says). Properties are the segment table's columns.
+    """
+    smp = assessment.samples
+    feats = []
+    for row in assessment.segments.to_dict(orient="records"):
+        leg = smp[smp["leg"] == row["segment"] - 1]
+        coords = [[round(float(lo), 6), round(float(la), 6), round(float(z) * FT, 1)]
+                  for lo, la, z in zip(leg["longitude"], leg["latitude"], leg["altitude_ft"], strict=True)]
+        if len(coords) == 1:
+            coords = coords * 2
+        parts = _split_antimeridian(coords)
+        geom = ({"type": "LineString", "coordinates": parts[0]} if len(parts) == 1
+                else {"type": "MultiLineString", "coordinates": parts})
+        props = {k: _clean(v) for k, v in row.items()}
+        feats.append({"type": "Feature", "geometry": geom, "properties": props})
+    return {"type": "FeatureCollection", "features": feats,
+            "properties": {"caution": CAUTION, "summary": {k: _clean(v) for k, v in assessment.summary.items()}}}
+
+
+def write_reports(assessment, out_dir) -> list[Path]:
+    """Write segments.csv, assessment.json, segments.geojson (and report.html with plots when available)."""
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    p = out / "segments.csv"
+    p.write_text(segments_csv(assessment))
+    written.append(p)
+    p = out / "assessment.json"
+    p.write_text(assessment.to_json())
+    written.append(p)
+    p = out / "segments.geojson"
+    p.write_text(json.dumps(segments_geojson(assessment), indent=1))
+    written.append(p)
+    try:
+        from .html import write_html
+    except ImportError:
+        return written
+    written.extend(write_html(assessment, out))
+    return written

@@ -1,0 +1,61 @@
+"""The terminal table of a route assessment, with the caution above and below it."""
+
+from __future__ import annotations
+
+import math
+import textwrap
+
+from .. import CAUTION
+
+
+def _num(v, fmt="{:.1f}", none="-"):
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return none
+    return fmt.format(v)
+
+
+def _alt(lo, hi):
+    if abs(hi - lo) < 50:
+        return f"{lo:,.0f}"
+    return f"{lo:,.0f}-{hi:,.0f}"
+
+
+def segment_table(assessment) -> str:
+    """A fixed-width table, one line a segment, then the summary and the caution."""
+    seg = assessment.segments
+    s = assessment.summary
+    head = ["#", "from", "to", "start UTC", "nm", "altitude ft", "icing min", "max mm/h", "ice mm", "intensity",
+            "type", "large drops", "data", "best alt ft"]
+    rows = []
+    for r in seg.itertuples():
+        rows.append([str(r.segment), r.start, r.end, r.start_time[11:16], _num(r.distance_nm, "{:.0f}"),
+                     _alt(r.altitude_ft_min, r.altitude_ft_max), _num(r.icing_minutes, "{:.0f}"),
+                     _num(r.max_rate_mm_per_h), _num(r.accretion_mm), r.intensity.upper() if r.intensity in
+                     ("moderate", "severe") else r.intensity, r.ice_type, r.large_drops, r.data,
+                     _num(r.best_altitude_ft, "{:,.0f}")])
+    widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h) for i, h in enumerate(head)]
+    wrap = "\n".join(textwrap.wrap(CAUTION, 100))
+    out = [wrap, "", f"Route {s['route']}  departure {s['departure']}  aircraft {s['aircraft']} "
+           f"(reference body {s['reference_body_diameter_m'] * 1000:.0f} mm)", ""]
+    out.append("  ".join(h.ljust(w) for h, w in zip(head, widths, strict=True)))
+    out.append("  ".join("-" * w for w in widths))
+    for row in rows:
+        out.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
+    out.append("")
+    out.append(f"Total in icing: {s['total_icing_minutes']:.0f} min; total accretion {s['total_accretion_mm']:.1f} mm "
+               f"on the reference body; worst: "
+               + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
+                  s["worst_intensity"]) + ".")
+    if not math.isnan(s.get("best_altitude_plan_accretion_mm", math.nan)):
+        out.append(f"Best altitude per segment (within the offsets tried) would give "
+                   f"{s['best_altitude_plan_accretion_mm']:.1f} mm.")
+    if s["segments_missing_data"] or s["segments_partial_data"]:
+        out.append(f"DATA GAPS: {s['segments_missing_data']} segment(s) without data and "
+                   f"{s['segments_partial_data']} with partial data: icing there is UNKNOWN, not absent.")
+    if (seg["large_drops"] != "none").any():
+        out.append("Supercooled large drops possible (freezing drizzle or rain): beyond what the droplet-size "
+                   "model above covers; see the large drops column.")
+    out.append(s["intensity_note"])
+    out.append("")
+    out.append(wrap)
+    return "\n".join(out)
