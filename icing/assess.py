@@ -260,9 +260,9 @@ def _summarise(route, ac, smp, used, source, alt_acc, step_s):
         options = {0.0: plan_acc if data == "ok" else np.nan, **tot}
         best_off = min((o for o in options if np.isfinite(options[o])), key=lambda o: (options[o], abs(o)),
                        default=None)
-        alt_mean = float(seg["altitude_ft"].mean())
+        alt_ref = float(seg["altitude_ft"].max())  # the segment's highest planned altitude, shifted by the offset
         for off, v in options.items():
-            alt_rows.append({"segment": k + 1, "offset_ft": off, "altitude_ft": alt_mean + off, "accretion_mm": v})
+            alt_rows.append({"segment": k + 1, "offset_ft": off, "altitude_ft": alt_ref + off, "accretion_mm": v})
         icing_any = icing.any()
         rows.append({
             "segment": k + 1, "start": wps[k].name, "end": wps[k + 1].name,
@@ -290,7 +290,7 @@ def _summarise(route, ac, smp, used, source, alt_acc, step_s):
             "data_distance_km": float(np.nanmax(seg["data_distance_km"]))
             if np.isfinite(seg["data_distance_km"]).any() else np.nan,
             "data_age_h": float(np.nanmax(seg["data_age_h"])) if np.isfinite(seg["data_age_h"]).any() else np.nan,
-            "best_altitude_ft": alt_mean + best_off if best_off is not None else np.nan,
+            "best_altitude_ft": alt_ref + best_off if best_off is not None else np.nan,
             "best_accretion_mm": options[best_off] if best_off is not None else np.nan,
         })
     segments = pd.DataFrame(rows, columns=SEGMENT_COLUMNS + EXTRA_COLUMNS)
@@ -300,7 +300,7 @@ def _summarise(route, ac, smp, used, source, alt_acc, step_s):
 
 
 def _iso(ts) -> str:
-    return pd.Timestamp(ts).tz_convert("UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+    return pd.Timestamp(ts).tz_convert("UTC").round("s").strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def _summary(route, ac, segments, alternatives, step_s):

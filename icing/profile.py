@@ -31,8 +31,7 @@ VARIABLES = {
     "wind_direction": ("degree", "wind_from_direction", "direction the wind blows from"),
     "cloud_liquid": ("g/m^3", None, "cloud liquid water content given by the source"),
 }
-QC_FLAGS = {"height_filled": 1, "dewpoint_derived": 2, "value_changed": 4, "value_removed": 8, "merged": 16,
-            "humidity_derived": 32}
+QC_FLAGS = {"height_filled": 1, "dewpoint_derived": 2, "value_changed": 4, "value_removed": 8, "merged": 16}
 T_RANGE = (-100.0, 60.0)  # degC, plausible tropospheric and lower-stratospheric air
 RH_MAX = 105.0  # percent: above this a humidity value is taken as an error rather than supersaturation
 DEWPOINT_CLIP = 1.0  # degC: dewpoint above temperature by at most this is rounding, clipped to T
@@ -230,9 +229,9 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
         fl[need_td] |= QC_FLAGS["dewpoint_derived"]
     need_rh = ~np.isfinite(d["relative_humidity"]) & np.isfinite(d["dewpoint"]) & np.isfinite(tk)
     if need_rh.any():
+        # RH from a reported dewpoint is how radiosonde reports give humidity: not a quality flag.
         d["relative_humidity"][need_rh] = 100.0 * thermo.relative_humidity_water(
             tk[need_rh], d["dewpoint"][need_rh] + thermo.T0)
-        fl[need_rh] |= QC_FLAGS["humidity_derived"]
     _check_and_fill_heights(d, fl, rec2, elevation, log)
     return _to_dataset(d, fl, present, station=station, latitude=latitude, longitude=longitude,
                        elevation=elevation, time=time, source=source, format=format, quality=log)
