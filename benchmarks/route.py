@@ -35,7 +35,7 @@ def routes(n=1000):
     out = []
     for _ in range(n):
         la, lo = 51 + rng.uniform(0, 4), -35 + rng.uniform(0, 10)
-        la2, lo2 = la + rng.uniform(-1, 1), lo + rng.uniform(2.5, 3.5)
+        la2, lo2 = la + rng.uniform(-1, 1), lo + rng.uniform(7.5, 8.5)
         fl = f"FL{int(rng.integers(60, 160)):03d}"
         out.append(Route.from_points([("A", la, lo, fl), ("B", (la + la2) / 2, (lo + lo2) / 2, fl),
                                       ("C", la2, lo2, fl)], departure="2026-01-15T05:00Z"))

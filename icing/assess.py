@@ -99,14 +99,15 @@ def _read_paths(item):
     return read_profiles(p)
 
 
-def _sample_atmosphere(source, traj, offset_ft=0.0):
+def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
     alt = np.maximum(traj["altitude_ft"].to_numpy() + offset_ft, -1000.0)
     fl = traj["flight_level"].to_numpy()
     pressure = np.where(fl, thermo.pressure_from_pressure_altitude_ft(alt), np.nan)
     height = np.where(fl, np.nan, alt * FT)
     times = traj["time_s"].to_numpy().astype("int64").astype("datetime64[s]")
+    kw = {} if weights is None else {"weights": weights}
     return source.sample(traj["latitude"].to_numpy(), traj["longitude"].to_numpy(), times, pressure=pressure,
-                         height=height), alt
+                         height=height, **kw), alt
 
 
 def _accrete(atm, tas_ms, body_diameter_m):
@@ -120,8 +121,9 @@ def _accrete(atm, tas_ms, body_diameter_m):
     p = np.where(np.isfinite(atm["pressure"]), atm["pressure"], 50000.0)
     t_safe = np.where(np.isfinite(t_k), t_k, 263.15)
     core = accretion_core(lwc / 1000.0, mvd * 1e-6, tas_ms, t_safe, p, np.full_like(lwc, body_diameter_m))
-    rate = np.where(supercooled, np.nan_to_num(core["thickness_rate"]), 0.0) * 1000.0 * 3600.0  # mm/h
-    ice = np.where(supercooled, np.asarray(core["ice_type"]), 0).astype(np.int8)
+    # A NaN thickness rate (inputs the model cannot use) stays unknown; it is never read as no ice.
+    rate = np.where(supercooled, core["thickness_rate"], 0.0) * 1000.0 * 3600.0  # mm/h
+    ice = np.clip(np.where(supercooled, np.asarray(core["ice_type"]), 0), 0, 3).astype(np.int8)
     missing = ~(atm["coverage"] > 0)
     rate = np.where(missing, np.nan, rate)
     return rate, ice, supercooled & ~missing
@@ -167,7 +169,7 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
                   offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, **options) -> list[Assessment]:
     """Screen many routes against one atmosphere source in one vectorised pass (see :func:`assess_route`)."""
     from .aircraft import get_aircraft
-    from .route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_samples, wind_points
+    from .route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_arrays, wind_points
 
     ac = get_aircraft(aircraft)
     source = _source_of(soundings, **options)
@@ -187,12 +189,18 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         tail = atm["wind_u"] * np.sin(az) + atm["wind_v"] * np.cos(az)
         bounds = np.cumsum([0] + [p["latitude"].size for p in pts])
         winds = [tail[bounds[i]:bounds[i + 1]] for i in range(len(pts))]
-    trajs = [timed_samples(g, step_s, w) for g, w in zip(geos, winds, strict=True)]
-    lengths = [len(t) for t in trajs]
-    traj = pd.concat(trajs, ignore_index=True)
-    traj["route"] = np.repeat(np.arange(len(trajs)), lengths)
+    parts = [timed_arrays(g, step_s, w) for g, w in zip(geos, winds, strict=True)]
+    lengths = np.array([p["leg"].size for p in parts])
+    traj = pd.DataFrame({k: np.concatenate([p[k] for p in parts]) for k in parts[0]})
+    traj["phase"] = np.array(["cruise", "climb", "descent"])[traj["phase"].to_numpy()]
+    traj.insert(1, "time", pd.to_datetime(traj["time_s"], unit="s", utc=True))
+    traj["route"] = np.repeat(np.arange(len(parts)), lengths)
     tas = traj["tas_ms"].to_numpy()
-    atm, alt = _sample_atmosphere(source, traj)
+    weights = None
+    if hasattr(source, "weights"):  # the horizontal match is the same at every altitude: compute it once
+        weights = source.weights(traj["latitude"].to_numpy(), traj["longitude"].to_numpy(),
+                                 traj["time_s"].to_numpy().astype("int64").astype(float))
+    atm, _ = _sample_atmosphere(source, traj, weights=weights)
     rate, ice, icing = _accrete(atm, tas, ac.body_diameter_m)
     dur = traj["duration_s"].to_numpy()
     samples = traj.assign(
@@ -204,136 +212,172 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
     # Alternatives: the whole route shifted by each offset; per segment the least accretion with full data.
     alt_acc = {}
     for off in offsets_ft:
-        a2, alt2 = _sample_atmosphere(source, traj, off)
+        a2, alt2 = _sample_atmosphere(source, traj, off, weights=weights)
         r2, _, _ = _accrete(a2, tas, ac.body_diameter_m)
-        cov_ok = a2["coverage"] >= FULL
-        acc2 = np.where(cov_ok, r2 * dur / 3600.0, np.nan)
-        acc2 = np.where(alt2 < MIN_ALTERNATIVE_FT, np.nan, acc2)
+        acc2 = np.where((a2["coverage"] >= FULL) & (alt2 >= MIN_ALTERNATIVE_FT), r2 * dur / 3600.0, np.nan)
         alt_acc[off] = acc2
-    used = atm["used"]
+    segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice)
     out = []
+    bounds = np.concatenate([[0], np.cumsum(lengths)])
+    seg_bounds = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in rts])])
+    n_opt = len(offsets_ft) + 1
+    samples = samples.drop(columns="route")
+    alternatives = alternatives.drop(columns="_route")
+    rank = {"unknown": -1, **{k: i for i, k in enumerate(INTENSITIES)}}
+    cols = {"intensity": segments["intensity"].to_numpy(), "accretion_mm": segments["accretion_mm"].to_numpy(),
+            "icing_minutes": segments["icing_minutes"].to_numpy(), "data": segments["data"].to_numpy(),
+            "best_accretion_mm": segments["best_accretion_mm"].to_numpy()}
+    cols["code"] = np.array([rank[x] for x in cols["intensity"]])
     for i, r in enumerate(rts):
-        sel = traj["route"].to_numpy() == i
-        out.append(_summarise(r, ac, samples[sel].reset_index(drop=True), used[sel], source,
-                              {k: v[sel] for k, v in alt_acc.items()}, step_s))
+        a, b = seg_bounds[i], seg_bounds[i + 1]
+        seg = _view(segments, a, b)
+        alts = _view(alternatives, a * n_opt, b * n_opt)
+        smp = _view(samples, bounds[i], bounds[i + 1])
+        summary = _summary(r, ac, {k: v[a:b] for k, v in cols.items()}, step_s)
+        out.append(Assessment(segments=seg, summary=summary, samples=smp, alternatives=alts))
     return out
 
 
-def _summarise(route, ac, smp, used, source, alt_acc, step_s):
+def _view(frame, a, b):
+    """Rows a:b with a fresh 0-based index (a view under pandas copy-on-write, no data copied)."""
+    out = frame.iloc[a:b]
+    out.index = pd.RangeIndex(b - a)
+    return out
+
+
+def _reduce(ufunc, values, starts):
+    return ufunc.reduceat(values, starts) if values.size else values
+
+
+def _segment_tables(routes, smp, used, source, alt_acc, ice):
+    """Aggregate samples into segments for all routes at once (reduceat over contiguous segment runs)."""
     from .envelopes import appendix_c_status, appendix_o_status
 
-    rows = []
-    alt_rows = []
-    app_c = np.asarray(appendix_c_status(smp["lwc_g_m3"].fillna(0).to_numpy(), smp["mvd_um"].fillna(0).to_numpy(),
-                                         smp["temperature_c"].to_numpy(), smp["altitude_ft"].to_numpy()))
-    app_c = np.where(smp["in_icing"].to_numpy(), app_c, "n/a")
-    app_o = np.asarray(appendix_o_status(np.nan_to_num(smp["large_drop"].to_numpy()).astype(int),
-                                         smp["altitude_ft"].to_numpy()))
-    codes = _intensity(smp["rate_mm_per_h"].to_numpy())
-    wps = route.waypoints
-    for k in range(len(wps) - 1):
-        m = smp["leg"].to_numpy() == k
-        seg = smp[m]
-        cov = seg["coverage"].to_numpy()
-        if np.all(cov >= FULL):
-            data = "ok"
-        elif np.all(cov <= 0):
-            data = "missing"
-        else:
-            data = "partial"
-        icing = seg["in_icing"].to_numpy()
-        rate = seg["rate_mm_per_h"].to_numpy()
-        known_rate = np.where(np.isfinite(rate), rate, 0.0)
-        code = int(np.max(codes[m])) if m.any() else -1
-        if data == "missing" or (data == "partial" and code <= 0):
-            intensity = "unknown"  # unknown is never reported as none
-        else:
-            intensity = INTENSITIES[max(code, 0)]
-        ice_codes = [ICE_TYPES.index(x) for x in seg["ice_type"]]
-        ice = ICE_TYPES[max(ice_codes)] if ice_codes else "none"
-        ld = seg["large_drop"].to_numpy()
-        ld_code = int(np.nanmax(ld)) if np.isfinite(ld).any() else 0
-        idx = np.flatnonzero(used[m].any(axis=0))
-        sources = ";".join(source.labels[idx]) if hasattr(source, "labels") else ""
-        tot = {off: np.nansum(v[m]) if np.isfinite(v[m]).all() else np.nan for off, v in alt_acc.items()}
-        plan_acc = float(np.sum(known_rate * seg["duration_s"].to_numpy() / 3600.0))
-        options = {0.0: plan_acc if data == "ok" else np.nan, **tot}
-        best_off = min((o for o in options if np.isfinite(options[o])), key=lambda o: (options[o], abs(o)),
-                       default=None)
-        alt_ref = float(seg["altitude_ft"].max())  # the segment's highest planned altitude, shifted by the offset
-        for off, v in options.items():
-            alt_rows.append({"segment": k + 1, "offset_ft": off, "altitude_ft": alt_ref + off, "accretion_mm": v})
-        icing_any = icing.any()
-        rows.append({
-            "segment": k + 1, "start": wps[k].name, "end": wps[k + 1].name,
-            "start_time": _iso(seg["time"].iloc[0] - pd.Timedelta(seconds=seg["duration_s"].iloc[0] / 2)),
-            "end_time": _iso(seg["time"].iloc[-1] + pd.Timedelta(seconds=seg["duration_s"].iloc[-1] / 2)),
-            "distance_nm": float(route.leg_distances_m()[k] / NMI),
-            "altitude_ft_min": float(seg["altitude_ft"].min()), "altitude_ft_max": float(seg["altitude_ft"].max()),
-            "icing_minutes": float(seg["duration_s"].to_numpy()[icing].sum() / 60.0),
-            "max_rate_mm_per_h": float(np.max(known_rate)) if known_rate.size else 0.0,
-            "accretion_mm": plan_acc,
-            "intensity": intensity, "ice_type": ice, "large_drops": LARGE_DROPS[ld_code], "data": data,
-            "sources": sources,
-            "max_lwc_g_m3": float(np.nanmax(np.where(icing, seg["lwc_g_m3"], 0.0))) if icing_any else 0.0,
-            "mvd_um": float(np.nanmean(seg["mvd_um"].to_numpy()[icing])) if icing_any else np.nan,
-            "min_temperature_c": float(np.nanmin(seg["temperature_c"])) if np.isfinite(seg["temperature_c"]).any()
-            else np.nan,
-            "freezing_level_ft": float(np.nanmean(seg["freezing_level_ft"]))
-            if np.isfinite(seg["freezing_level_ft"]).any() else np.nan,
-            "supercooled_top_ft": float(np.nanmax(seg["supercooled_top_ft"]))
-            if np.isfinite(seg["supercooled_top_ft"]).any() else np.nan,
-            "appendix_c": "beyond" if (app_c[m] == "beyond").any() else "within" if (app_c[m] == "within").any()
-            else "n/a",
-            "appendix_o": "beyond" if (app_o[m] == "beyond").any() else "within" if (app_o[m] == "within").any()
-            else "n/a",
-            "data_distance_km": float(np.nanmax(seg["data_distance_km"]))
-            if np.isfinite(seg["data_distance_km"]).any() else np.nan,
-            "data_age_h": float(np.nanmax(seg["data_age_h"])) if np.isfinite(seg["data_age_h"]).any() else np.nan,
-            "best_altitude_ft": alt_ref + best_off if best_off is not None else np.nan,
-            "best_accretion_mm": options[best_off] if best_off is not None else np.nan,
-        })
-    segments = pd.DataFrame(rows, columns=SEGMENT_COLUMNS + EXTRA_COLUMNS)
-    alternatives = pd.DataFrame(alt_rows)
-    summary = _summary(route, ac, segments, alternatives, step_s)
-    return Assessment(segments=segments, summary=summary, samples=smp, alternatives=alternatives)
+    route_i = smp["route"].to_numpy()
+    leg = smp["leg"].to_numpy()
+    offsets = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in routes])])
+    gid = offsets[route_i] + leg  # global segment number, non-decreasing along the samples
+    starts = np.flatnonzero(np.concatenate([[True], np.diff(gid) != 0]))
+    n_seg = offsets[-1]
+    if starts.size != n_seg:
+        raise AssertionError("every segment must hold at least one sample")
+    dur = smp["duration_s"].to_numpy()
+    cov = smp["coverage"].to_numpy()
+    icing = smp["in_icing"].to_numpy()
+    rate = smp["rate_mm_per_h"].to_numpy()
+    known = np.where(np.isfinite(rate), rate, 0.0)
+    alt = smp["altitude_ft"].to_numpy()
+    temp = smp["temperature_c"].to_numpy()
+    lwc = np.nan_to_num(smp["lwc_g_m3"].to_numpy())
+    mvd = smp["mvd_um"].to_numpy()
+    codes = _intensity(rate).astype(int)
+    lvl = {"n/a": 0, "within": 1, "unknown": 2, "beyond": 3}  # the larger wins within a segment
+    app_c = np.asarray(appendix_c_status(lwc, mvd, temp, alt))
+    app_c = np.where(icing, np.vectorize(lvl.get)(app_c), 0) if app_c.size else app_c
+    ld = np.nan_to_num(smp["large_drop"].to_numpy()).astype(int)
+    app_o = np.vectorize(lvl.get)(np.asarray(appendix_o_status(ld, alt))) if ld.size else ld
+
+    def fin_max(v):
+        r = _reduce(np.maximum, np.where(np.isfinite(v), v, -np.inf), starts)
+        return np.where(np.isfinite(r), r, np.nan)
+
+    def fin_mean(v):
+        ok = np.isfinite(v)
+        n = _reduce(np.add, ok.astype(float), starts)
+        return np.where(n > 0, _reduce(np.add, np.where(ok, v, 0.0), starts) / np.where(n > 0, n, 1), np.nan)
+
+    cov_min = _reduce(np.minimum, cov, starts)
+    cov_max = _reduce(np.maximum, cov, starts)
+    data = np.where(cov_min >= FULL, "ok", np.where(cov_max <= 0, "missing", "partial"))
+    code = _reduce(np.maximum, codes, starts)
+    intensity = np.where((data == "missing") | ((data == "partial") & (code <= 0)), "unknown",
+                         np.asarray(INTENSITIES)[np.clip(code, 0, 4)])
+    n_icing = _reduce(np.add, icing.astype(float), starts)
+    acc = _reduce(np.add, known * dur / 3600.0, starts)
+    used_seg = np.logical_or.reduceat(used, starts, axis=0) if used.size else np.zeros((n_seg, 0), bool)
+    labels = getattr(source, "labels", np.array([], dtype=str))
+    sources = [";".join(labels[np.flatnonzero(row)]) for row in used_seg]
+    alt_max = _reduce(np.maximum, alt, starts)
+    t_s = smp["time_s"].to_numpy()
+    ends = np.concatenate([starts[1:], [len(smp)]]) - 1
+    leg_m = np.concatenate([r.leg_distances_m() for r in routes])
+    names = [(w.name, r.waypoints[k + 1].name) for r in routes for k, w in enumerate(r.waypoints[:-1])]
+    # Alternatives: per segment, plan (with complete data) and each offset; best = least accretion, then nearest.
+    opts = {0.0: np.where(data == "ok", acc, np.nan)}
+    for off, v in alt_acc.items():
+        bad = _reduce(np.add, np.isnan(v).astype(float), starts)
+        opts[off] = np.where(bad > 0, np.nan, _reduce(np.add, np.nan_to_num(v), starts))
+    offs = np.array(list(opts))
+    mat = np.column_stack([opts[o] for o in offs])  # (segments, options)
+    key = np.where(np.isnan(mat), np.inf, mat) + 1e-9 * np.abs(offs)[None, :]  # ties go to the smaller change
+    best = np.argmin(key, axis=1)
+    has_best = np.isfinite(mat[np.arange(n_seg), best])
+    seg_route = np.repeat(np.arange(len(routes)), np.diff(offsets))
+    segments = pd.DataFrame({
+        "segment": leg[starts] + 1,
+        "start": [a for a, _ in names], "end": [b for _, b in names],
+        "start_time": [_iso_s(t) for t in t_s[starts] - dur[starts] / 2],
+        "end_time": [_iso_s(t) for t in t_s[ends] + dur[ends] / 2],
+        "distance_nm": leg_m / NMI,
+        "altitude_ft_min": _reduce(np.minimum, alt, starts), "altitude_ft_max": alt_max,
+        "icing_minutes": _reduce(np.add, dur * icing, starts) / 60.0,
+        "max_rate_mm_per_h": _reduce(np.maximum, known, starts),
+        "accretion_mm": acc,
+        "intensity": intensity,
+        "ice_type": np.asarray(ICE_TYPES)[_reduce(np.maximum, ice.astype(int), starts)],
+        "large_drops": np.asarray(LARGE_DROPS)[_reduce(np.maximum, ld, starts)],
+        "data": data, "sources": sources,
+        "max_lwc_g_m3": _reduce(np.maximum, np.where(icing, lwc, 0.0), starts),
+        "mvd_um": np.where(n_icing > 0, _reduce(np.add, np.where(icing, np.nan_to_num(mvd), 0.0), starts)
+                           / np.where(n_icing > 0, n_icing, 1), np.nan),
+        "min_temperature_c": -fin_max(-temp),
+        "freezing_level_ft": fin_mean(smp["freezing_level_ft"].to_numpy()),
+        "supercooled_top_ft": fin_max(smp["supercooled_top_ft"].to_numpy()),
+        "appendix_c": np.array(["n/a", "within", "unknown", "beyond"])[_reduce(np.maximum, app_c, starts)],
+        "appendix_o": np.array(["n/a", "within", "unknown", "beyond"])[_reduce(np.maximum, app_o, starts)],
+        "data_distance_km": fin_max(smp["data_distance_km"].to_numpy()),
+        "data_age_h": fin_max(smp["data_age_h"].to_numpy()),
+        "best_altitude_ft": np.where(has_best, alt_max + offs[best], np.nan),
+        "best_accretion_mm": np.where(has_best, mat[np.arange(n_seg), best], np.nan),
+    }, columns=SEGMENT_COLUMNS + EXTRA_COLUMNS)
+    alternatives = pd.DataFrame({
+        "_route": np.repeat(seg_route, offs.size), "segment": np.repeat(leg[starts] + 1, offs.size),
+        "offset_ft": np.tile(offs, n_seg), "altitude_ft": (alt_max[:, None] + offs[None, :]).ravel(),
+        "accretion_mm": mat.ravel()})
+    return segments, alternatives
+
+
+def _iso_s(t) -> str:
+    return pd.Timestamp(round(float(t)), unit="s", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def _iso(ts) -> str:
     return pd.Timestamp(ts).tz_convert("UTC").round("s").strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
-def _summary(route, ac, segments, alternatives, step_s):
+def _summary(route, ac, seg, step_s):
+    """The route summary from its segments' columns (numpy arrays)."""
     from .accretion import INTENSITY_NOTE
 
-    known = segments["data"] != "missing"
+    codes, acc, data, inten = seg["code"], seg["accretion_mm"], seg["data"], seg["intensity"]
     worst = None
-    if len(segments):
-        order = segments.assign(_c=segments["intensity"].map(
-            {"unknown": -1, **{k: i for i, k in enumerate(INTENSITIES)}})).sort_values(
-            ["_c", "accretion_mm"], ascending=False)
-        top = order.iloc[0]
-        if top["_c"] > 0:
-            worst = int(top["segment"])
-    best_plan = np.nan
-    if len(alternatives):
-        per = alternatives.dropna(subset=["accretion_mm"]).groupby("segment")["accretion_mm"].min()
-        if len(per) == len(segments):
-            best_plan = float(per.sum())
-    n_missing = int((segments["data"] == "missing").sum())
-    n_partial = int((segments["data"] == "partial").sum())
+    if codes.size and codes.max() > 0:
+        cand = np.flatnonzero(codes == codes.max())
+        worst = int(cand[np.argmax(acc[cand])]) + 1
+    best = seg["best_accretion_mm"]
+    n_missing = int((data == "missing").sum())
+    n_partial = int((data == "partial").sum())
     return {
         "route": route.name, "departure": _iso(route.departure), "aircraft": ac.name,
         "reference_body_diameter_m": ac.body_diameter_m, "time_step_s": step_s,
-        "segments": int(len(segments)),
-        "total_icing_minutes": float(segments["icing_minutes"].sum()),
-        "total_accretion_mm": float(segments["accretion_mm"].sum()),
+        "segments": int(codes.size),
+        "total_icing_minutes": float(seg["icing_minutes"].sum()),
+        "total_accretion_mm": float(acc.sum()),
         "worst_segment": worst,
-        "worst_intensity": segments.loc[segments["segment"] == worst, "intensity"].iloc[0] if worst else
-        ("unknown" if n_missing or n_partial else "none"),
-        "best_altitude_plan_accretion_mm": best_plan,
+        "worst_intensity": str(inten[worst - 1]) if worst else ("unknown" if n_missing or n_partial else "none"),
+        "best_altitude_plan_accretion_mm": float(best.sum()) if np.isfinite(best).all() else float("nan"),
         "segments_missing_data": n_missing, "segments_partial_data": n_partial,
-        "data_complete": bool(known.all() and n_partial == 0),
+        "data_complete": bool(n_missing == 0 and n_partial == 0),
         "intensity_note": INTENSITY_NOTE,
         "caution": CAUTION,
     }

@@ -18,7 +18,8 @@ from pyproj import Geod
 from .errors import RouteFormatError, UnitError
 from .units import FT, KT, NMI, parse_altitude, parse_speed
 
-__all__ = ["Waypoint", "Route", "read_route", "trajectory", "plan_geometry", "wind_points", "timed_samples", "GEOD",
+__all__ = ["Waypoint", "Route", "read_route", "trajectory", "plan_geometry", "wind_points", "timed_samples",
+           "timed_arrays", "GEOD",
            "DEFAULT_TRANSITION_FT"]
 
 GEOD = Geod(ellps="WGS84")
@@ -299,7 +300,15 @@ def wind_points(geo: dict, spacing_m: float = 10000.0) -> dict:
 
 def timed_samples(geo: dict, step_s: float = 60.0, wind=None) -> pd.DataFrame:
     """Samples at a fixed time step from a planned geometry and (optionally) along-track winds at
-    :func:`wind_points` (m/s, NaN unknown)."""
+    :func:`wind_points` (m/s, NaN unknown), as a DataFrame (see :func:`trajectory` for the columns)."""
+    out = pd.DataFrame(timed_arrays(geo, step_s, wind))
+    out["phase"] = np.array(["cruise", "climb", "descent"])[out["phase"].to_numpy()]
+    out.insert(1, "time", pd.to_datetime(out["time_s"], unit="s", utc=True))
+    return out
+
+
+def timed_arrays(geo: dict, step_s: float = 60.0, wind=None) -> dict:
+    """As :func:`timed_samples`, as a dict of numpy arrays (``phase`` coded 0 cruise, 1 climb, 2 descent)."""
     cols = {k: [] for k in ("leg", "time_s", "duration_s", "latitude", "longitude", "altitude_ft", "flight_level",
                             "phase", "tas_ms", "ground_speed_ms", "distance_m")}
     t0 = geo["t0"]
@@ -346,10 +355,7 @@ def timed_samples(geo: dict, step_s: float = 60.0, wind=None) -> pd.DataFrame:
         cols["ground_speed_ms"].append(gs[idx])
         cols["distance_m"].append(leg["dist0"] + s_at)
         t0 += total
-    out = pd.DataFrame({k: np.concatenate(v) for k, v in cols.items()})
-    out["phase"] = np.array(["cruise", "climb", "descent"])[out["phase"].to_numpy()]
-    out.insert(1, "time", pd.to_datetime(out["time_s"], unit="s", utc=True))
-    return out
+    return {k: np.concatenate(v) for k, v in cols.items()}
 
 
 def nm(meters):

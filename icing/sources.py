@@ -157,14 +157,15 @@ class SoundingSource:
             wa = np.where(both, (ts - tj[before]) / span, np.where(has_a, 1.0, 0.0))
             wb = np.where(both, 1.0 - wa, np.where(has_b, 1.0, 0.0))
             rows = np.arange(n_s)
-            np.add.at(w_time, (rows, js[before]), wb)
-            np.add.at(w_time, (rows, js[after]), wa)
+            # Each statement touches every row once, so plain fancy-index addition is exact here.
+            w_time[rows, js[before]] += wb
+            w_time[rows, js[after]] += wa
         w = w_time * w_space[:, self._site_of]
         tot = w.sum(axis=1, keepdims=True)
         w = np.where(tot > 0, w / np.where(tot > 0, tot, 1.0), 0.0)
         return w, dist[:, self._site_of]
 
-    def sample(self, latitude, longitude, time, pressure=None, height=None):
+    def sample(self, latitude, longitude, time, pressure=None, height=None, weights=None):
         """Diagnostics at sample points.
 
         Parameters
@@ -175,6 +176,9 @@ class SoundingSource:
             Where finite, the sample's pressure (flight levels).
         height : array_like, m MSL, optional
             Used where ``pressure`` is NaN or not given.
+        weights : tuple, optional
+            The ``(weights, distances)`` of :meth:`weights` for these points, to reuse them when the same
+            points are sampled at other altitudes.
 
         Returns
         -------
@@ -190,7 +194,7 @@ class SoundingSource:
         n = lat.size
         p_in = np.full(n, np.nan) if pressure is None else np.broadcast_to(np.asarray(pressure, float), (n,))
         z_in = np.full(n, np.nan) if height is None else np.broadcast_to(np.asarray(height, float), (n,))
-        w, dist = self.weights(lat, lon, ts)
+        w, dist = self.weights(lat, lon, ts) if weights is None else weights
         acc = {k: np.zeros(n) for k in ("temperature", "lwc", "lwc_mvd", "supercooled", "in_cloud", "rh_water",
                                         "pressure", "wind_u", "wind_v", "wind_w", "fz", "fz_w", "top", "top_w")}
         covered = np.zeros(n)
