@@ -180,7 +180,8 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
     idx = idx[np.argsort(-data["pressure"][idx], kind="stable")]
     if np.any(np.diff(np.flatnonzero(keep)) < 0) or not np.array_equal(idx, np.flatnonzero(keep)):
         log.append({"level": None, "action": "reordered", "reason": "levels sorted by decreasing pressure"})
-    # Merge levels that share a pressure: first finite value of each variable wins; conflicts are recorded.
+    # Merge levels that share a pressure: the mean of the finite values of each variable (independent of the
+    # input order); values that disagree are recorded.
     groups = []
     for i in idx:
         if groups and abs(data["pressure"][groups[-1][0]] - data["pressure"][i]) < 1e-6:
@@ -194,10 +195,15 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
         for k in data:
             vals = data[k][g]
             fin = vals[np.isfinite(vals)]
-            cols[k].append(fin[0] if fin.size else np.nan)
+            if fin.size and k == "wind_direction":  # a circular mean: 350 and 10 average to 0, not 180
+                r = np.radians(fin)
+                mean = float(np.degrees(np.arctan2(np.sin(r).mean(), np.cos(r).mean())) % 360.0)
+            else:
+                mean = fin.mean() if fin.size else np.nan
+            cols[k].append(mean)
             if k != "pressure" and fin.size > 1 and np.ptp(fin) > 1e-6:
                 record(g[0], "merged", f"duplicate level: {k} values {', '.join(f'{v:g}' for v in fin)}; kept "
-                       f"{fin[0]:g}", k)
+                       f"their mean {mean:g}", k)
         if len(g) > 1:
             for j in g[1:]:
                 record(j, "merged", f"duplicate of the level at {data['pressure'][g[0]]:g} hPa")
