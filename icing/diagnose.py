@@ -1,0 +1,393 @@
+"""Level-wise icing diagnostics of any number of profiles at once.
+
+:func:`diagnose_arrays` is the numpy core on plain SI arrays with a trailing level axis; :func:`diagnose`
+wraps it for canonical profile Datasets (``xr.apply_ufunc`` with ``level`` as the core dimension, so dask-
+backed inputs stay lazy). The physics lives in :mod:`icing.layers`, :mod:`icing.adiabat` and
+:mod:`icing.microphysics`; this module only chains it.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import types
+from concurrent.futures import ThreadPoolExecutor
+
+import numpy as np
+import xarray as xr
+
+from . import CAUTION, adiabat, envelopes, layers, microphysics, thermo
+from .errors import ConfigError
+from .units import ureg
+
+__all__ = ["diagnose_arrays", "diagnose", "DEFAULT_COLD_LIMIT_C", "LEVEL_OUTPUTS", "PROFILE_OUTPUTS"]
+
+DEFAULT_COLD_LIMIT_C = -40.0
+LEVEL_OUTPUTS = ("rh_water", "rh_ice", "in_cloud", "supercooled", "liquid_fraction", "lwc", "mvd", "large_drop",
+                 "warm_layer_aloft", "cloud_kind", "valid")
+PROFILE_OUTPUTS = ("precipitation_type", "freezing_level_count")
+_BLOCK = 2048  # profiles per block
+_WORKERS = min(4, os.cpu_count() or 1)
+_MODEL_CLOUD_MIN = 1e-5  # kg/m3 (0.01 g/m3): model cloud liquid above this is cloud (common practice)
+
+
+def _fill_gaps(p, v):
+    """Fill interior NaNs of v (P, n) linearly in ln p from the nearest finite levels; ends stay NaN."""
+    bad = ~np.isfinite(v) & np.isfinite(p)
+    rows = np.flatnonzero(bad.any(axis=-1))
+    if rows.size == 0:
+        return v
+    out = v.copy()
+    x = -np.log(p[rows])
+    xp = np.where(np.isfinite(v[rows]), x, np.nan)
+    out[rows] = np.where(np.isfinite(v[rows]), v[rows], thermo.interp_last_axis(x, xp, v[rows]))
+    return out
+
+
+def _cap_stratiform(lwc, kind, t, model, airmass, n_drop):
+    """Hold supercooled stratiform LWC (g/m3) to the 14 CFR Part 25 Appendix C continuous maximum.
+
+    Adiabatic ascent from the base of a deep layer cloud gives 1-2 g/m3 or more near its top, while the
+    measured extremes of layer-cloud icing on which the continuous-maximum envelope rests (NACA TN-1855 and
+    the studies behind Appendix C) stay below about 0.8 g/m3; deep layer cloud loses water to entrainment,
+    precipitation and ice. The cap is our design rule, not a published parameterisation. The envelope falls
+    with MVD and the MVD grows with LWC, so the cap is the self-consistent value L* = envelope(MVD(L*), T)
+    (found by bisection; temperature held to 0..-30 degC, MVD to 15..40 um), which depends only on the
+    temperature and the droplet concentration: the capped LWC still grows with the adiabatic LWC.
+    Convective cloud is not capped.
+    """
+    strat = (kind == 1) & ~model & (lwc > 0) & (t < thermo.T0)
+    if not strat.any():
+        return lwc
+    tc = np.clip(t[strat] - thermo.T0, -30.0, 0.0)
+    lo = np.zeros(tc.shape)
+    hi = np.full(tc.shape, 1.0)  # above every envelope value (0.8 g/m3 at most)
+    for _ in range(30):  # bisection on envelope(MVD(L)) - L, which falls with L
+        mid = 0.5 * (lo + hi)
+        mvd = microphysics.median_volume_diameter(mid / 1000.0, airmass, number_concentration=n_drop) * 1e6
+        above = envelopes.continuous_max_lwc_si(np.clip(mvd, 15.0, 40.0), tc) > mid
+        lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
+    out = lwc.copy()
+    out[strat] = np.minimum(lwc[strat], 0.5 * (lo + hi))
+    return out
+
+
+def _check_params(params):
+    unknown = set(params) - set(layers.CLOUD_DEFAULTS)
+    if unknown:
+        raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(layers.CLOUD_DEFAULTS)}")
+    return {**layers.CLOUD_DEFAULTS, **params}
+
+
+def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, *, cold_limit=233.15,
+                    airmass="continental", **thresholds):
+    """Icing diagnostics level by level for profiles of shape (..., level), plain SI in and out.
+
+    Parameters
+    ----------
+    pressure, temperature, dewpoint, height : array_like (..., level)
+        Pa, K, K (over water), m above mean sea level; NaN where missing (padded levels are NaN). Any level
+        order: levels are sorted by decreasing pressure inside and the results put back in the input order.
+    cloud_liquid : array_like (..., level), optional
+        Cloud liquid water content from a model (kg/m3). Where finite it replaces the adiabatic estimate.
+    cold_limit : float
+        Coldest temperature (K) at which supercooled liquid is considered, default 233.15 K (-40 degC); a limit
+        colder than the 224.8 K homogeneous-nucleation limit of pure water raises :class:`ConfigError`.
+    airmass : {"continental", "marine"} or float
+        Droplet number concentration for the droplet size (a number is per cm3).
+    **thresholds
+        Any of :data:`icing.layers.CLOUD_DEFAULTS`.
+
+    Returns
+    -------
+    dict of ndarray
+        Per level (shape of the input): ``rh_water``, ``rh_ice`` (percent), ``in_cloud``, ``supercooled``
+        (bool), ``liquid_fraction`` (0-1), ``lwc`` (g/m3), ``mvd`` (um, NaN where no liquid), ``large_drop``
+        (int8: 0 none, 1 drizzle, 2 rain), ``warm_layer_aloft`` (bool), ``cloud_kind`` (int8: 0 none,
+        1 stratiform, 2 convective) and ``valid`` (bool: temperature and humidity were measured there; the
+        other fields at invalid levels are interpolated from neighbours, or NaN/False beyond the data, and must
+        never be read as cloud-free). Per profile (leading shape): ``precipitation_type`` (int8, codes of
+        :data:`icing.layers.PRECIPITATION_TYPES`) and ``freezing_level_count`` (int).
+
+    Notes
+    -----
+    The chain: RH over water and ice (Murphy and Koop 2005); cloud levels by Zhang et al. (2010); supercooled
+    = in cloud, between ``cold_limit`` and 0 degC, with RH over water at least the cloud threshold (liquid
+    possible); cloud kind convective where the moist adiabat from the layer base gets warmer than the
+    environment anywhere in the layer (environmental lapse rate steeper than moist adiabatic); LWC =
+    adiabatic LWC from each layer base x sub-adiabatic factor by kind x liquid fraction (Hu et al. 2010) at
+    supercooled and warm cloud levels;
+    MVD from LWC and the airmass's droplet number; precipitation type by Bourgouin (2000); large drops:
+    freezing rain where melted precipitation falls into sub-freezing air, freezing drizzle under warm-topped
+    supercooled cloud.
+    """
+    prm = _check_params(thresholds)
+    cold_limit = microphysics.check_cold_limit(cold_limit)
+    n_drop = microphysics.droplet_number_concentration(airmass)
+    arrays = [np.asarray(a, dtype=float) for a in (pressure, temperature, dewpoint, height)]
+    has_model = cloud_liquid is not None
+    if has_model:
+        arrays.append(np.asarray(cloud_liquid, dtype=float))
+    shape = np.broadcast_shapes(*(a.shape for a in arrays))
+    lead, n = shape[:-1], shape[-1]
+    flat = [np.broadcast_to(a, shape).reshape(-1, n) for a in arrays]
+    # Sort every profile by decreasing pressure (NaN pressures last), undone at the end.
+    key = np.where(np.isfinite(flat[0]), -flat[0], np.inf)
+    order = np.argsort(key, axis=-1, kind="stable")
+    sorted_already = bool(np.all(order == np.arange(n)))
+    if not sorted_already:
+        flat = [np.take_along_axis(a, order, axis=-1) for a in flat]
+    p, t_raw, td_raw, z_raw = flat[:4]
+    cl = flat[4] if has_model else None
+    valid = np.isfinite(p) & np.isfinite(t_raw) & np.isfinite(td_raw)
+    t = _fill_gaps(p, t_raw)
+    td = np.minimum(_fill_gaps(p, td_raw), t)
+    z = _fill_gaps(p, z_raw)
+    # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles).
+    def block(i):
+        sl = slice(i, i + _BLOCK)
+        return _diagnose_sorted(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
+                                cold_limit, n_drop, airmass, prm)
+
+    starts = range(0, max(p.shape[0], 1), _BLOCK)
+    if len(starts) == 1:
+        out = block(0)
+    else:
+        first = block(0)
+        out = {k: np.empty((p.shape[0],) + v.shape[1:], v.dtype) for k, v in first.items()}
+
+        def store(i, part):
+            for k, v in part.items():
+                out[k][i:i + _BLOCK] = v
+
+        store(0, first)
+        if _WORKERS > 1:
+            # numpy releases the GIL inside its loops, so blocks run in parallel threads.
+            with ThreadPoolExecutor(_WORKERS) as pool:
+                for i, part in zip(starts[1:], pool.map(block, starts[1:]), strict=True):
+                    store(i, part)
+        else:
+            for i in starts[1:]:
+                store(i, block(i))
+    result = {}
+    for name, arr in out.items():
+        if arr.ndim == 2:
+            if not sorted_already:
+                back = np.empty_like(arr)
+                np.put_along_axis(back, order, arr, axis=-1)
+                arr = back
+            result[name] = arr.reshape(lead + (n,))
+        else:
+            result[name] = arr.reshape(lead)
+    return result
+
+
+def _diagnose_sorted(p, t, td, z, cl, valid, cold_limit, n_drop, airmass, prm):
+    npro, n = p.shape
+    have_t = np.isfinite(t)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        e = thermo.saturation_vapor_pressure_water(td)  # RH as thermo.relative_humidity_water / _ice
+        rh_w = 100.0 * e / thermo.saturation_vapor_pressure_water(t)
+        rh_i = 100.0 * e / thermo.saturation_vapor_pressure_ice(t)
+    rh_cloud = np.where(t < thermo.T0, rh_i, rh_w)
+    z0 = np.take_along_axis(z, np.argmax(np.isfinite(z), axis=-1)[:, None], axis=-1)
+    z_agl = z - z0
+    min_rh = layers.zhang_thresholds(z_agl, prm["min_rh"])
+    in_cloud, zb = layers.cloud_mask(z_agl, rh_cloud, min_rh_values=min_rh, **{k: prm[k] for k in (
+        "min_rh", "max_rh", "inter_rh", "min_moist_base_m", "min_moist_thickness_m", "min_cloud_base_m",
+        "merge_gap_m", "min_thickness_low_m", "min_thickness_high_m", "low_cloud_limit_m")})
+    model = np.zeros_like(in_cloud) if cl is None else np.isfinite(cl)
+    if cl is not None:
+        in_cloud |= model & (cl >= _MODEL_CLOUD_MIN)
+    in_cloud &= have_t
+    lwc_ad, tp = adiabat.adiabatic_lwc_from_bases(p, np.where(have_t, t, 273.15), in_cloud)
+    # Cloud kind per layer: convective where the parcel rising from the layer base along the moist adiabat
+    # gets warmer than the environment somewhere in the layer (lapse rate steeper than moist adiabatic).
+    s, e, rid = layers._runs(in_cloud)
+    excess = layers._reduce(np.fmax, tp - t, in_cloud, s, -np.inf)
+    conv = layers._spread(excess > prm["convective_excess_k"], rid, False)
+    kind = np.where(in_cloud, np.where(conv, 2, 1), 0).astype(np.int8)
+    liquid_rh = min_rh if prm["liquid_rh"] is None else prm["liquid_rh"]
+    with np.errstate(invalid="ignore"):
+        liquid_ok = np.where(model, (cl if cl is not None else 0.0) >= _MODEL_CLOUD_MIN, rh_w >= liquid_rh)
+        cold_enough = (t <= thermo.T0) & (t >= cold_limit)
+    supercooled = in_cloud & cold_enough & liquid_ok
+    warm_cloud = in_cloud & (t > thermo.T0)
+    lf = microphysics.liquid_fraction(t, cold_limit)
+    factor = microphysics.subadiabatic_factor(kind, prm["stratiform_factor"], prm["convective_factor"])
+    lwc = np.where(supercooled | warm_cloud, factor * lwc_ad * lf, 0.0) * 1000.0
+    if prm["stratiform_cap"]:
+        lwc = _cap_stratiform(lwc, kind, t, model, airmass, n_drop)
+    if cl is not None:
+        lwc = np.where(model, np.where(in_cloud, cl * 1000.0, 0.0), lwc)
+    lwc = np.where(have_t, lwc, np.nan)
+    mvd = np.full(lwc.shape, np.nan)
+    wet = lwc > 0
+    mvd[wet] = microphysics.median_volume_diameter(lwc[wet] / 1000.0, airmass, number_concentration=n_drop) * 1e6
+    # Per cloud layer: thickness and the temperature at the interpolated top, for the drizzle rule and the
+    # precipitation source (the highest cloud top that can precipitate).
+    src_level = np.full(npro, -1)
+    src_phase = np.zeros(npro, dtype=np.int64)
+    if s.size:
+        base, top = layers._run_bounds(z_agl, zb, s, e, n)
+        thick = top - np.maximum(base, prm["min_cloud_base_m"])
+        e1 = np.where(e % n < n - 1, e + 1, e)
+        zf, tf = z_agl.ravel(), t.ravel()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.where(e1 > e, (top - zf[e]) / (zf[e1] - zf[e]), 0.0)
+            t_top = np.where(np.isfinite(w) & np.isfinite(tf[e1]), tf[e] + w * (tf[e1] - tf[e]), tf[e])
+            cold_top = t_top < prm["drizzle_top_temperature"]
+            deep = thick >= prm["drizzle_min_thickness_m"]
+            drizzle_run = ~cold_top & (t_top <= thermo.T0) & deep
+        can = np.flatnonzero(cold_top | deep)
+        if can.size:
+            rows, cols = np.divmod(e[can], n)
+            np.maximum.at(src_level, rows, cols)  # the highest qualifying top of each profile
+            top_run = np.full(npro, -1)
+            np.maximum.at(top_run, rows, can)
+            has = top_run >= 0
+            ph = np.where(cold_top, layers._SN, np.where(t_top <= thermo.T0, layers._DZ, layers._RA))
+            src_phase[has] = ph[top_run[has]]
+        drizzle_src = layers._spread(drizzle_run, rid, False)
+    else:
+        drizzle_src = np.zeros(p.shape, bool)
+    drizzle = layers.drizzle_below(t, drizzle_src & in_cloud)
+    humidity_complete = ~np.any(have_t & ~np.isfinite(rh_w), axis=-1)
+    ptype, rain = layers.precipitation_type(p, t, src_level, src_phase, humidity_complete,
+                                            prm["melting_area_aloft"])
+    large = np.where(rain, 2, np.where(drizzle, 1, 0)).astype(np.int8)
+    fl_count = layers.freezing_crossings(t).sum(axis=-1)
+    return {
+        "rh_water": rh_w, "rh_ice": rh_i, "in_cloud": in_cloud, "supercooled": supercooled,
+        "liquid_fraction": lf, "lwc": lwc, "mvd": mvd, "large_drop": large,
+        "warm_layer_aloft": layers.warm_layer_aloft(t), "cloud_kind": kind, "valid": valid,
+        "precipitation_type": ptype, "freezing_level_count": fl_count.astype(np.int64),
+    }
+
+
+# --- xarray wrapper ---------------------------------------------------------------------------------
+
+_ATTRS = {
+    "rh_water": {"units": "percent", "long_name": "relative humidity over liquid water"},
+    "rh_ice": {"units": "percent", "long_name": "relative humidity over ice (a formal value above 0 degC)"},
+    "in_cloud": {"long_name": "in cloud (RH thresholds of Zhang et al. 2010)"},
+    "supercooled": {"long_name": "in cloud with supercooled liquid possible (between the cold limit and 0 degC)"},
+    "liquid_fraction": {"units": "1", "long_name": "liquid fraction of cloud condensate (Hu et al. 2010)"},
+    "lwc": {"units": "g/m^3", "long_name": "liquid water content"},
+    "mvd": {"units": "micrometer", "long_name": "median volume diameter of cloud droplets"},
+    "large_drop": {"long_name": "supercooled large-drop potential", "flag_values": np.array([0, 1, 2], np.int8),
+                   "flag_meanings": "none drizzle rain"},
+    "warm_layer_aloft": {"long_name": "in a layer above 0 degC that lies above sub-freezing air"},
+    "cloud_kind": {"long_name": "cloud kind from the lapse rate against the moist adiabat",
+                   "flag_values": np.array([0, 1, 2], np.int8), "flag_meanings": "none stratiform convective"},
+    "valid": {"long_name": "temperature and humidity measured at this level (else interpolated or unknown)"},
+    "precipitation_type": {"long_name": "precipitation type at the lowest level if precipitation falls "
+                                        "(Bourgouin 2000 energy areas)",
+                           "flag_values": np.array(sorted(layers.PRECIPITATION_TYPES), np.int8),
+                           "flag_meanings": " ".join(layers.PRECIPITATION_TYPES[k]
+                                                     for k in sorted(layers.PRECIPITATION_TYPES))},
+    "freezing_level_count": {"units": "1", "long_name": "number of 0 degC crossings"},
+}
+_DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool,
+           "large_drop": np.int8, "cloud_kind": np.int8, "precipitation_type": np.int8,
+           "freezing_level_count": np.int64}
+
+
+def _to_si(da, unit):
+    """Linear conversion of a DataArray from its ``units`` attribute to ``unit`` (lazy-safe)."""
+    src = da.attrs.get("units")
+    if src is None:
+        raise ConfigError(f"variable {da.name!r} has no units attribute")
+    a = ureg.Quantity(0.0, src).to(unit).magnitude
+    b = ureg.Quantity(1.0, src).to(unit).magnitude - a
+    return da * b + a if (a, b) != (0.0, 1.0) else da
+
+
+def _cold_limit_kelvin(cold_limit):
+    if isinstance(cold_limit, ureg.Quantity):
+        return float(cold_limit.to("K").magnitude)
+    return float(cold_limit) + thermo.T0
+
+
+def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental", **thresholds) -> xr.Dataset:
+    """Icing diagnostics of canonical profile Dataset(s), keeping their dimensions and coordinates.
+
+    Parameters
+    ----------
+    profiles : xarray.Dataset
+        Canonical profile(s) (:mod:`icing.profile`): dimension ``level`` last or anywhere, any leading
+        dimensions; ``pressure``, ``temperature``, ``dewpoint``, ``height`` with pint-readable ``units``, and
+        optionally ``cloud_liquid``. Dask-backed variables stay lazy.
+    cold_limit : pint.Quantity or float
+        Coldest temperature for supercooled liquid; a float is in degC (default -40 degC).
+    airmass : {"continental", "marine"} or float
+        Droplet number for the droplet size (a number is per cm3).
+    **thresholds
+        Any of :data:`icing.layers.CLOUD_DEFAULTS`.
+
+    Returns
+    -------
+    xarray.Dataset
+        The input ``pressure``, ``height``, ``temperature``, ``dewpoint`` (and ``qc_flag``, and per-profile
+        variables such as ``latitude``, ``longitude``, ``time``, ``station`` of stacked profiles) plus the fields of
+        :func:`diagnose_arrays`, each with ``units``/``long_name`` attributes; attributes ``cold_limit``
+        (degC), ``airmass``, ``lwc_source`` ("adiabatic" or "model cloud liquid"), ``caution`` and the input's
+        ``quality`` record.
+    """
+    ck = _cold_limit_kelvin(cold_limit)
+    microphysics.check_cold_limit(ck)
+    _check_params(thresholds)
+    for name in ("pressure", "temperature", "dewpoint", "height"):
+        if name not in profiles:
+            raise ConfigError(f"profile has no {name!r} variable")
+    inputs = [_to_si(profiles["pressure"], "Pa"), _to_si(profiles["temperature"], "K"),
+              _to_si(profiles["dewpoint"], "K"), _to_si(profiles["height"], "m")]
+    has_model = "cloud_liquid" in profiles and bool(np.isfinite(profiles["cloud_liquid"]).any())
+    if has_model:
+        inputs.append(_to_si(profiles["cloud_liquid"], "kg/m^3"))
+    names = LEVEL_OUTPUTS + PROFILE_OUTPUTS
+
+    def core(*arrs):
+        cl = arrs[4] if len(arrs) > 4 else None
+        out = diagnose_arrays(*arrs[:4], cl, cold_limit=ck, airmass=airmass, **thresholds)
+        return tuple(out[k] for k in names)
+
+    results = xr.apply_ufunc(
+        core, *inputs, input_core_dims=[["level"]] * len(inputs),
+        output_core_dims=[["level"]] * len(LEVEL_OUTPUTS) + [[]] * len(PROFILE_OUTPUTS),
+        dask="parallelized", output_dtypes=[_DTYPES.get(k, float) for k in names],
+        dask_gufunc_kwargs={"allow_rechunk": False}, keep_attrs=False)
+    keep = [v for v in ("pressure", "height", "temperature", "dewpoint", "relative_humidity", "cloud_liquid",
+                        "qc_flag") if v in profiles]
+    keep += [v for v in profiles.data_vars if "level" not in profiles[v].dims]  # per-profile metadata
+    ds = profiles[keep].copy()
+    for name, da in zip(names, results, strict=True):
+        dims = [d for d in profiles["temperature"].dims if d != "level"]
+        da = da.transpose(*(dims + (["level"] if name in LEVEL_OUTPUTS else [])))
+        ds[name] = da.assign_attrs(_ATTRS[name])
+    ds.attrs = {k: v for k, v in profiles.attrs.items()}
+    ds.attrs.update({
+        "cold_limit": ck - thermo.T0, "cold_limit_units": "degC",
+        "airmass": str(airmass),
+        "lwc_source": "model cloud liquid" if has_model else "adiabatic",
+        "lwc_method": ("cloud liquid water from the source model where given" if has_model else
+                       "adiabatic LWC from each cloud base along the moist adiabat x sub-adiabatic factor "
+                       "(stratiform 0.8, convective 0.4) x liquid fraction (Hu et al. 2010)"
+                       + ("; supercooled stratiform LWC held to the Part 25 Appendix C continuous maximum"
+                          if thresholds.get("stratiform_cap", True) else "")),
+        "caution": CAUTION,
+        "quality": list(profiles.attrs.get("quality", [])),
+    })
+    return ds
+
+
+class _CallableModule(types.ModuleType):
+    """Importing ``icing.diagnose`` binds this module as the package attribute ``icing.diagnose``, which
+    shadows the function of the same name exported by ``icing``; calling the module calls the function, so
+    ``icing.diagnose(ds)`` works whatever was imported first."""
+
+    def __call__(self, *args, **kwargs):
+        return diagnose(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _CallableModule
