@@ -21,7 +21,47 @@ EXAMPLES = {
     "layers": "examples:\n  icing layers sample_soundings/S1_00101_2026011500.csv",
     "inspect": "examples:\n  icing inspect sample_soundings/S5_00105_2026011500.csv",
     "aircraft": "examples:\n  icing aircraft",
+    "plot": "examples:\n  icing plot sample_soundings/S1_00101_2026011500.csv --out s1.png\n"
+            "  icing plot sample_soundings/S2_00102_2026011500.csv --out s2.svg --cold-limit -30\n"
+            "  icing plot sample_soundings/S1_00101_2026011500.csv > s1.png",
 }
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with usage errors as one line on stderr (exit 2), pointing at --help."""
+
+    def error(self, message):
+        self.exit(2, f"icing: error: {message} (see '{self.prog} --help')\n")
+
+
+class Progress:
+    """A one-line progress bar on stderr, drawn only when stderr is a terminal (pipes and logs stay clean)."""
+
+    def __init__(self, total, stream=None, width=24):
+        self.stream = sys.stderr if stream is None else stream
+        self.enabled = hasattr(self.stream, "isatty") and self.stream.isatty()
+        self.total, self.done, self.width = max(int(total), 1), 0, width
+
+    def __call__(self, done, total, what=""):
+        """Set the position within the current stage (as write_reports' progress callback)."""
+        self.show(self.done + (done / max(total, 1)), what)
+
+    def step(self, what=""):
+        self.show(self.done, what)
+        self.done += 1
+
+    def show(self, position, what=""):
+        if not self.enabled:
+            return
+        k = round(self.width * min(position / self.total, 1.0))
+        line = f"[{'#' * k}{'.' * (self.width - k)}] {what}"[:78]
+        self.stream.write("\r" + line.ljust(78))
+        self.stream.flush()
+
+    def close(self):
+        if self.enabled:
+            self.stream.write("\r" + " " * 78 + "\r")
+            self.stream.flush()
 
 
 def sample_dir() -> Path:
@@ -62,7 +102,7 @@ def _add_screen_options(sp):
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="icing", description="Screen a planned flight route for airframe icing from soundings. " + CAUTION,
         formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"icing {__version__}")
@@ -86,23 +126,41 @@ def build_parser() -> argparse.ArgumentParser:
     ip.add_argument("soundings", nargs="+")
     sub.add_parser("aircraft", help="list the aircraft presets", epilog=EXAMPLES["aircraft"],
                    formatter_class=argparse.RawDescriptionHelpFormatter)
+    pp = sub.add_parser("plot", help="draw a sounding diagram (skew-T with supercooled layers, LWC and MVD)",
+                        epilog=EXAMPLES["plot"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    pp.add_argument("sounding", help="a sounding file (a file of several profiles gives one image each)")
+    pp.add_argument("--out", metavar="FILE", help="PNG or SVG by suffix; without it a PNG goes to stdout")
+    pp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
+    pp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
+    pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data)")
     return parser
 
 
 def _screen(args, route, soundings):
     from .aircraft import get_aircraft
+    from .assess import _source_of as atmosphere_source  # (to be made public in icing.assess)
     from .assess import assess_route
 
-    ac = get_aircraft(args.aircraft, **_overrides(args.set))
-    result = assess_route(route, soundings, ac, step_s=args.step, departure=args.departure,
-                          max_distance_km=args.max_distance, max_age_hours=args.max_age,
-                          cold_limit=args.cold_limit, airmass=args.airmass)
-    fmt = "json" if args.json else args.format
-    if args.out:
-        from .report.files import write_reports
+    progress = Progress(4 if args.out else 2)
+    try:
+        ac = get_aircraft(args.aircraft, **_overrides(args.set))
+        progress.step("reading and diagnosing soundings")
+        source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
+                                   cold_limit=args.cold_limit, airmass=args.airmass)
+        progress.step("screening the route")
+        result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
+        fmt = "json" if args.json else args.format
+        if args.out:
+            from .report.files import write_reports
 
-        written = write_reports(result, args.out)
-        print("wrote " + ", ".join(str(p) for p in written), file=sys.stderr)
+            progress.step("writing reports")
+            written = write_reports(result, args.out, source=source, progress=progress)
+            progress.close()
+            html = [p for p in written if p.suffix == ".html"]
+            print(f"wrote {len(written)} files to {args.out}" + (f"; open {html[0]} in a browser" if html else ""),
+                  file=sys.stderr)
+    finally:
+        progress.close()
     if fmt == "json":
         print(result.to_json())
     elif fmt == "csv":
@@ -187,6 +245,16 @@ def _aircraft(args):
     return 0
 
 
+def _plot(args):
+    from .report.plots import plot_sounding_main
+
+    written = plot_sounding_main(args.sounding, args.out, cold_limit=args.cold_limit, airmass=args.airmass,
+                                 top_hpa=args.top)
+    if written:
+        print("wrote " + ", ".join(str(p) for p in written), file=sys.stderr)
+    return 0
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -195,15 +263,16 @@ def main(argv=None) -> int:
             return _screen(args, args.route, args.soundings)
         if args.command == "demo":
             d = sample_dir()
-            return _screen(args, d / "demo_route.csv", [d])
+            return _screen(args, d / "demo_route.csv", sorted(d.glob("S?_*.csv")))
         if args.command == "layers":
             return _layers(args)
         if args.command == "inspect":
             return _inspect(args)
         if args.command == "aircraft":
             return _aircraft(args)
-        parser.print_help()
-        return 2
+        if args.command == "plot":
+            return _plot(args)
+        parser.error("give a command: screen, demo, layers, plot, inspect or aircraft")
     except IcingError as exc:
         print(f"icing: error: {exc}", file=sys.stderr)
         return 2

@@ -69,8 +69,12 @@ def segments_geojson(assessment) -> dict:
             "properties": {"caution": CAUTION, "summary": {k: _clean(v) for k, v in assessment.summary.items()}}}
 
 
-def write_reports(assessment, out_dir) -> list[Path]:
-    """Write segments.csv, assessment.json, segments.geojson (and report.html with plots when available)."""
+def write_reports(assessment, out_dir, source=None, progress=None) -> list[Path]:
+    """Write segments.csv, assessment.json, segments.geojson (and report.html with plots when available).
+
+    ``source`` (the atmosphere source) lets the HTML report draw the layers along the route and the soundings;
+    ``progress(done, total, what)`` is called as each figure is drawn.
+    """
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     written = []
@@ -87,5 +91,5 @@ def write_reports(assessment, out_dir) -> list[Path]:
         from .html import write_html
     except ImportError:
         return written
-    written.extend(write_html(assessment, out))
+    written.extend(write_html(assessment, out, source, progress=progress))
     return written

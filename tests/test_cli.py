@@ -1,0 +1,241 @@
+"""The ``icing`` command through subprocesses: every command and format, and bad input giving one clear line.
+
+Each new interpreter spends seconds importing the scientific stack, so: a few runs are real ``python -m
+icing.cli`` processes started in parallel (a screening with its report files and its progress bar on a
+pseudo-terminal, help, usage errors),
+and the rest run in one more subprocess that calls :func:`icing.cli.main` once per command line exactly as
+``python -m icing.cli`` does (``sys.exit(main(argv))``), with stdout, stderr and the exit code captured per
+call. Exit codes: 0 ran, 2 bad input or usage, 1 our bug.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import io
+import json
+import os
+import pty
+import subprocess
+import sys
+from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
+from types import SimpleNamespace
+
+import pytest
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_soundings"
+S1 = SAMPLES / "S1_00101_2026011500.csv"
+ROUTE = SAMPLES / "demo_route.csv"
+COMMANDS = ("screen", "demo", "layers", "plot", "inspect", "aircraft")
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948
+
+# One interpreter, many command lines: main(argv) with fresh binary-backed stdout/stderr per call.
+DRIVER = r"""
+import base64, io, json, sys, traceback
+from icing.cli import main
+out = {}
+for name, argv in json.load(sys.stdin):
+    so, se = io.TextIOWrapper(io.BytesIO(), encoding="utf-8"), io.TextIOWrapper(io.BytesIO(), encoding="utf-8")
+    sys.stdout, sys.stderr = so, se
+    try:
+        rc = main(argv)
+    except SystemExit as exc:
+        rc = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 1)
+    except BaseException:
+        se.write(traceback.format_exc())
+        rc = "uncaught"
+    so.flush(); se.flush()
+    out[name] = {"rc": rc, "stdout": base64.b64encode(so.buffer.getvalue()).decode(),
+                 "stderr": se.buffer.getvalue().decode("utf-8", "replace")}
+sys.stdout, sys.stderr = sys.__stdout__, sys.__stderr__
+print(json.dumps(out))
+"""
+
+
+def _runs(tmp: Path) -> tuple[dict, dict]:
+    (tmp / "garbage.csv").write_text("this is not\na sounding at all\n")
+    (tmp / "bad_route.csv").write_text("name,latitude,longitude,altitude\nAAAAA,95.0,10.0,FL100\nBBBBB,50,11,FL100\n")
+    csvs = [str(p) for p in sorted(SAMPLES.glob("S?_*.csv"))]
+    one_station = [str(SAMPLES / f"S2_00102_20260115{h}.csv") for h in ("00", "12")]  # one diagram to draw
+    real = {
+        "screen_json_out": ["screen", str(ROUTE), "--soundings", *one_station, "--format", "json", "--out",
+                            str(tmp / "report")],
+        "help": ["--help"],
+        "bad_option": ["screen", str(ROUTE), "--soundings", str(SAMPLES), "--bogus"],
+        "no_command": [],
+    }
+    in_one = {
+        # commands and formats
+        "demo_table": ["demo"],
+        "demo_geojson": ["demo", "--format", "geojson"],
+        "screen_csv": ["screen", str(ROUTE), "--soundings", *csvs[:4], "--format", "csv"],
+        "layers_table": ["layers", str(S1)],
+        "layers_csv": ["layers", str(S1), "--format", "csv"],
+        "layers_json": ["layers", str(S1), "--format", "json"],
+        "inspect": ["inspect", str(S1)],
+        "aircraft": ["aircraft"],
+        "plot_svg": ["plot", str(S1), "--out", str(tmp / "s1.svg")],
+        "plot_stdout": ["plot", str(S1)],
+        **{f"help_{c}": [c, "--help"] for c in COMMANDS},
+        # bad usage
+        "bad_number": ["demo", "--step", "abc"],
+        "bad_choice": ["demo", "--format", "xml"],
+        "missing_argument": ["layers"],
+        # bad paths and files
+        "garbage_sounding": ["layers", str(tmp / "garbage.csv")],
+        "missing_route": ["screen", str(tmp / "no_such_route.csv"), "--soundings", *csvs],
+        "bad_route": ["screen", str(tmp / "bad_route.csv"), "--soundings", *csvs],
+        "plot_bad_suffix": ["plot", str(S1), "--out", str(tmp / "s1.jpeg")],
+    }
+    return real, in_one
+
+
+@pytest.fixture(scope="module")
+def results(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("cli")
+    real, in_one = _runs(tmp)
+
+    def run(argv, stdin=None):
+        return subprocess.run([sys.executable, *argv], capture_output=True, timeout=300, input=stdin)
+
+    def run_on_terminal(argv):
+        """stderr on a pseudo-terminal, as a user at a shell sees it (the progress bar draws only there)."""
+        master, slave = pty.openpty()
+        try:
+            r = subprocess.run([sys.executable, *argv], stdout=subprocess.PIPE, stderr=slave, timeout=300,
+                               stdin=subprocess.DEVNULL)
+        finally:
+            os.close(slave)
+        chunks = []
+        while True:
+            try:
+                chunk = os.read(master, 65536)
+            except OSError:  # EIO once the terminal's other side is closed and drained
+                break
+            if not chunk:
+                break
+            chunks.append(chunk)
+        os.close(master)
+        r.stderr = b"".join(chunks)
+        return r
+
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        batch = pool.submit(run, ["-c", DRIVER], json.dumps(list(in_one.items())).encode())
+        futures = {k: pool.submit(run_on_terminal if k == "screen_json_out" else run, ["-m", "icing.cli", *v],
+                                  *([] if k == "screen_json_out" else [b""])) for k, v in real.items()}
+        out = {k: f.result() for k, f in futures.items()}
+        b = batch.result()
+    assert b.returncode == 0, b.stderr.decode()
+    for k, v in json.loads(b.stdout).items():
+        out[k] = SimpleNamespace(returncode=v["rc"], stdout=base64.b64decode(v["stdout"]),
+                                 stderr=v["stderr"].encode())
+    out["_tmp"] = tmp
+    return out
+
+
+def ok(r):
+    err = r.stderr.decode(errors="replace")
+    assert r.returncode == 0, err
+    assert "Traceback" not in err
+    return r.stdout.decode(errors="replace")
+
+
+def one_error_line(r, *words):
+    """Exit 2, exactly one line on stderr naming the problem, no traceback, nothing on stdout."""
+    err = r.stderr.decode(errors="replace")
+    assert r.returncode == 2, err
+    assert "Traceback" not in err
+    lines = [x for x in err.splitlines() if x.strip()]
+    assert len(lines) == 1, err
+    assert lines[0].startswith("icing: error:"), lines[0]
+    for w in words:
+        assert w in lines[0], lines[0]
+    assert r.stdout == b""
+    return lines[0]
+
+
+def test_screen_json_and_report_files(results):
+    """JSON on stdout and, with --out, the report files: CSV, JSON, GeoJSON, HTML and its images."""
+    data = json.loads(ok(results["screen_json_out"]))
+    assert data["caution"].startswith("ADVISORY ONLY")
+    assert data["segments"] and {"segment", "intensity", "data"} <= set(data["segments"][0])
+    out = results["_tmp"] / "report"
+    for name in ("segments.csv", "assessment.json", "segments.geojson", "report.html", "cross_section.png",
+                 "segment_chart.png"):
+        assert (out / name).is_file(), name
+    assert (out / "cross_section.png").read_bytes()[:8] == PNG_SIGNATURE
+    err = results["screen_json_out"].stderr.decode(errors="replace")
+    assert "wrote" in err and "report.html" in err
+    assert "\r[" in err and "#" in err  # the progress bar, drawn on the terminal
+    assert "Traceback" not in err
+    assert "Sounding 00102" in (out / "report.html").read_text(encoding="utf-8")  # its diagram is embedded
+    assert any(seg["data"] != "ok" for seg in data["segments"])  # one station cannot cover the whole route
+
+
+def test_demo_table(results):
+    """The bundled demo runs (the table format, caution first)."""
+    text = ok(results["demo_table"])
+    assert text.startswith("ADVISORY ONLY")
+    assert "ALDRN" in text and "ESKRY" in text
+
+
+def test_demo_geojson(results):
+    fc = json.loads(ok(results["demo_geojson"]))
+    assert fc["type"] == "FeatureCollection" and len(fc["features"]) >= 1
+
+
+def test_screen_csv(results):
+    text = ok(results["screen_csv"])
+    first, rest = text.split("\n", 1)
+    assert first.startswith("# ADVISORY ONLY")
+    rows = list(csv.DictReader(io.StringIO(rest)))
+    assert rows and rows[0]["start"] == "ALDRN"
+
+
+def test_layers_each_format(results):
+    assert "ADVISORY ONLY" in ok(results["layers_table"])
+    rows = list(csv.DictReader(io.StringIO(ok(results["layers_csv"]))))
+    assert rows and "base_height_ft" in rows[0]
+    recs = json.loads(ok(results["layers_json"]))
+    assert len(recs) == len(rows)
+
+
+def test_inspect_and_aircraft(results):
+    assert "quality record" in ok(results["inspect"])
+    assert "turboprop" in ok(results["aircraft"])
+
+
+def test_plot_svg_and_png_on_stdout(results):
+    ok(results["plot_svg"])
+    assert "<svg" in (results["_tmp"] / "s1.svg").read_text()
+    assert results["plot_stdout"].returncode == 0, results["plot_stdout"].stderr.decode()
+    assert results["plot_stdout"].stdout[:8] == PNG_SIGNATURE  # pipes: the image goes to stdout
+
+
+def test_help_has_examples(results):
+    assert "screen" in ok(results["help"])
+    for c in COMMANDS:
+        text = ok(results[f"help_{c}"])
+        assert "examples:" in text and f"icing {c}" in text, c
+
+
+@pytest.mark.parametrize("name, words", [
+    ("no_command", ["command"]),
+    ("bad_option", ["--bogus"]),
+    ("bad_number", ["--step", "abc"]),
+    ("bad_choice", ["--format", "xml"]),
+    ("missing_argument", ["soundings"]),
+])
+def test_bad_usage_one_line_exit_2(results, name, words):
+    one_error_line(results[name], *words)
+
+
+@pytest.mark.parametrize("name, words", [
+    ("missing_route", ["no_such_route.csv"]),
+    ("garbage_sounding", ["garbage.csv"]),
+    ("bad_route", ["bad_route.csv"]),
+    ("plot_bad_suffix", [".png or .svg"]),
+])
+def test_bad_input_one_line_exit_2(results, name, words):
+    one_error_line(results[name], *words)
