@@ -1,0 +1,200 @@
+"""Throughput of the whole grid chain (diagnostics + accretion potential + column summaries), in one run.
+
+Measures, on a synthetic 0.25 degree regional grid with 40 pressure levels (our own invented fields):
+
+* a plain numpy pass over the same input arrays (read temperature, dewpoint and height, write one array):
+  the memory-bandwidth ceiling of this machine for data of this size;
+* the chain eagerly on one core (numpy, no dask);
+* the chain lazily on dask's threaded scheduler and on a dask.distributed LocalCluster (inputs generated and
+  kept on the workers, so no input is shipped through the client);
+* a per-profile loop of MetPy calls doing the thermodynamic part of the chain (RH over water and ice, a moist
+  adiabat from the cloud base, the adiabatic liquid water), on a subset of columns.
+
+Level-points per second = columns x levels / wall time. Run: ``python benchmarks/grid.py [--times 8]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import time
+from types import SimpleNamespace
+
+import numpy as np
+
+LEVELS = np.linspace(1000.0, 200.0, 40)
+
+
+def region(step=0.25):
+    """Latitudes and longitudes of the benchmark region (30-60 N, 50-10 W at 0.25 deg: 121 x 161)."""
+    return np.arange(30.0, 60.0 + 1e-9, step), np.arange(-50.0, -10.0 + 1e-9, step)
+
+
+def columns(t_idx, lat, lon, levels=LEVELS):
+    """Synthetic fields (degC, degC, m) for the given time indices and 1-D lat/lon: standard atmosphere cooled
+    towards the pole, a travelling wave, and moist bands that make cloud decks of varying depth."""
+    from icing import thermo
+
+    tt, yy, xx = np.meshgrid(np.asarray(t_idx, float), lat, lon, indexing="ij")
+    z_std = thermo.standard_atmosphere_height(levels * 100.0)
+    t_std = thermo.standard_atmosphere_temperature(z_std) - thermo.T0
+    wave = 4.0 * np.sin(np.radians(9.0 * xx + 20.0 * tt)) * np.cos(np.radians(12.0 * yy))
+    t = t_std + (-0.6 * (yy - 45.0) + wave)[..., None]
+    band = np.sin(np.radians(25.0 * yy + 15.0 * xx + 30.0 * tt))[..., None]
+    depth = 2.0 + 20.0 * np.clip(1.0 - np.abs(np.log(levels / 750.0)) * (2.0 + band), 0.0, 1.0)
+    dd = np.where(band > 0.2, 22.0 - depth, 8.0 + 10.0 * (1.0 - levels / 1000.0))
+    td = t - np.maximum(dd, 0.0)
+    z = z_std + (8.0 * (t[..., :1] - t_std[0]))  # a warm column stands higher
+    return t, td, z
+
+
+def synthetic_model(n_times, lat, lon, points=400_000, lazy=True, levels=LEVELS):
+    """A gridded profile Dataset; lazy: every chunk generated inside the dask graph from its coordinates."""
+    import xarray as xr
+
+    nlev = levels.size
+    dims = ("time", "latitude", "longitude", "level")
+    coords = {"time": np.datetime64("2026-01-15T00:00", "ns") + np.arange(n_times) * np.timedelta64(1, "h"),
+              "latitude": lat, "longitude": lon, "level": np.arange(nlev)}
+    attrs = {"temperature": {"units": "degC"}, "dewpoint": {"units": "degC"}, "height": {"units": "m"}}
+    if not lazy:
+        t, td, z = columns(np.arange(n_times), lat, lon, levels)
+        data = {"temperature": t, "dewpoint": td, "height": z}
+    else:
+        import dask.array as da
+
+        side = max(int(np.sqrt(points / nlev)), 1)
+        chunks = (1, min(side, lat.size), min(side, lon.size), nlev)
+        data = {}
+        for k, name in enumerate(("temperature", "dewpoint", "height")):
+            def block(block_info=None, k=k):
+                loc = block_info[None]["array-location"]
+                return columns(np.arange(*loc[0]), lat[slice(*loc[1])], lon[slice(*loc[2])], levels)[k]
+
+            data[name] = da.map_blocks(block, dtype=float, chunks=tuple(
+                tuple(min(c, n - i) for i in range(0, n, c)) for c, n in zip(chunks, (n_times, lat.size, lon.size,
+                                                                                      nlev), strict=True)),
+                name=f"synthetic-{name}-{n_times}-{lat.size}-{lon.size}-{points}")
+    ds = xr.Dataset({k: (dims, v, attrs[k]) for k, v in data.items()}, coords=coords)
+    ds["pressure"] = ("level", levels, {"units": "hPa"})
+    return ds
+
+
+AIRCRAFT = SimpleNamespace(name="benchmark-turboprop", tas_cruise_kt=240.0, body_diameter_m=0.08)
+
+
+def _timed(fn, repeat=1):
+    best = np.inf
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t0)
+    return best
+
+
+def metpy_loop(t, td, z, n_profiles):
+    """Per-profile MetPy: RH over water and ice, moist adiabat from the lowest saturated level, adiabatic LWC."""
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    p = LEVELS * units.hPa
+    flat_t = t.reshape(-1, LEVELS.size)[:n_profiles]
+    flat_td = td.reshape(-1, LEVELS.size)[:n_profiles]
+    for tc, tdc in zip(flat_t, flat_td, strict=True):
+        tq = tc * units.degC
+        tdq = tdc * units.degC
+        mpcalc.relative_humidity_from_dewpoint(tq, tdq)
+        e = mpcalc.saturation_vapor_pressure(tdq)
+        (e / mpcalc.saturation_vapor_pressure(tq, phase="solid")).to("percent")
+        sat = np.flatnonzero(tc - tdc < 1.0)
+        if sat.size:
+            b = sat[0]
+            parcel = mpcalc.moist_lapse(p[b:], tq[b])
+            w_base = mpcalc.saturation_mixing_ratio(p[b], tq[b])
+            w = mpcalc.saturation_mixing_ratio(p[b:], parcel)
+            rho = mpcalc.density(p[b:], parcel, w)
+            ((w_base - w) * rho).to("g/m^3")
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--times", type=int, default=6, help="model times (default 6)")
+    ap.add_argument("--workers", type=int, default=2, help="LocalCluster worker processes (default 2)")
+    ap.add_argument("--metpy-profiles", type=int, default=60)
+    ap.add_argument("--points", type=int, default=144_000, help="level-points per chunk (default 144000: "
+                    "60 x 60 columns of 40 levels)")
+    args = ap.parse_args(argv)
+
+    import dask
+
+    from icing.grid import diagnose_grid, grid_core
+
+    lat, lon = region()
+    nlp = args.times * lat.size * lon.size * LEVELS.size
+    print(f"grid: {args.times} times x {lat.size} x {lon.size} columns x {LEVELS.size} levels = {nlp / 1e6:.1f} M "
+          f"level-points; {os.cpu_count()} CPUs; load average before the run {os.getloadavg()[0]:.1f} (other jobs "
+          "on the machine slow every number below alike)")
+    eager = synthetic_model(args.times, lat, lon, lazy=False)
+    t, td, z = (eager[k].values for k in ("temperature", "dewpoint", "height"))
+
+    out = np.empty_like(t)
+
+    def bandwidth():
+        np.add(t, td, out=out)
+        np.add(out, z, out=out)
+
+    dt_bw = _timed(bandwidth, 3)
+    bytes_moved = 5 * t.nbytes  # reads t, td, out, z; writes out twice (counted as 5 array passes)
+    bw_rate = nlp / dt_bw
+    print(f"numpy pass (memory bandwidth): {bw_rate / 1e6:8.1f} M level-points/s ({bytes_moved / dt_bw / 1e9:.1f} "
+          "GB/s)")
+
+    one = eager.isel(time=slice(0, 1))
+    p = one["pressure"].values * 100.0
+    tk, tdk, zz = (one[k].values for k in ("temperature", "dewpoint", "height"))
+    dt_eager = _timed(lambda: grid_core(p, tk + 273.15, tdk + 273.15, zz, airspeed=AIRCRAFT.tas_cruise_kt * 0.514444,
+                                        body_diameter=AIRCRAFT.body_diameter_m), 2)
+    eager_rate = tk.size / dt_eager
+    print(f"chain, eager numpy (no dask):  {eager_rate / 1e6:8.2f} M level-points/s (one time; diagnose_arrays' own "
+          "block threads)")
+
+    summaries = ["max_potential_intensity", "max_potential_rate", "freezing_level_m", "supercooled_top_m"]
+    side = max(int(np.sqrt(args.points / LEVELS.size)), 1)
+    lazy_in = eager.chunk({"time": 1, "latitude": side, "longitude": side, "level": -1})
+    res = diagnose_grid(lazy_in, AIRCRAFT)[summaries]
+    with dask.config.set(scheduler="threads"):
+        dt_thr = _timed(lambda: res.compute(), 2)
+    thr_rate = nlp / dt_thr
+    print(f"chain, dask threaded:          {thr_rate / 1e6:8.2f} M level-points/s ({dt_thr:.1f} s)")
+
+    from distributed import wait
+
+    from icing.grid import scheduler
+
+    with scheduler(workers=args.workers) as client:  # a LocalCluster of worker processes, one thread each
+        gen = synthetic_model(args.times, lat, lon, points=args.points, lazy=True)
+        gen = gen.persist()
+        wait([gen[k].data for k in ("temperature", "dewpoint", "height")])
+        res_d = diagnose_grid(gen, AIRCRAFT)[summaries]
+        client.run(lambda: __import__("icing.grid"))  # workers import the package before the clock starts
+        dt_dist = _timed(lambda: client.compute(res_d).result(), 2)
+        dist_res = client.compute(res_d).result()
+    dist_rate = nlp / dt_dist
+    print(f"chain, distributed ({args.workers} procs): {dist_rate / 1e6:8.2f} M level-points/s ({dt_dist:.1f} s)")
+    with dask.config.set(scheduler="threads"):
+        thr_res = res.compute()
+    same = all(np.array_equal(thr_res[k].values, dist_res[k].values, equal_nan=True) for k in summaries)
+
+    dt_mp = _timed(lambda: metpy_loop(t, td, z, args.metpy_profiles), 1)
+    mp_rate = args.metpy_profiles * LEVELS.size / dt_mp
+    print(f"MetPy per-profile loop:        {mp_rate / 1e6:8.4f} M level-points/s ({args.metpy_profiles} profiles, "
+          "thermodynamics only)")
+    best = max(thr_rate, dist_rate)
+    print()
+    print(f"whole chain, best scheduler: {best / 1e6:.2f} M level-points/s = {best / mp_rate:,.0f} x the MetPy loop; "
+          f"{best / bw_rate * 100:.1f} % of the numpy memory-bandwidth pass; target 20 M/s: {best / 20e6 * 100:.0f} %")
+    print(f"threaded vs distributed: {thr_rate / dist_rate:.2f} ; results identical: {same}")
+
+
+if __name__ == "__main__":
+    main()

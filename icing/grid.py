@@ -1,0 +1,458 @@
+"""Icing diagnostics over whole model grids, lazily and in chunks, on dask's own schedulers.
+
+:func:`diagnose_grid` runs the level diagnostics of :func:`icing.diagnose.diagnose_arrays` and, for a named
+aircraft, the accretion-rate potential of :func:`icing.accretion.accretion_core` on every column of a gridded
+profile Dataset (:func:`icing.io.model.read_model`) through one :func:`xarray.apply_ufunc` call with
+``dask="parallelized"``: chunks across time and space, every level of a column in one chunk, nothing computed
+until the result is written (:func:`write_grid`, netCDF or zarr) or loaded. It adds the 2-D summaries of each
+column: the freezing level(s), the base and top of the supercooled levels and the largest potential intensity.
+
+Scale-out uses dask itself, nothing home-made (:func:`scheduler`): the threaded scheduler by default, a
+:class:`dask.distributed.LocalCluster` of N worker processes, or a running cluster by its address. dask is
+imported inside the functions (the optional ``scale`` extra); eager numpy-backed grids need no dask.
+
+The accretion potential is the ice growth rate the aircraft's reference body *would* see flying level through
+each grid box at its cruise true airspeed: a screening field, not a forecast. ADVISORY ONLY (see
+:data:`icing.CAUTION`).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import sys
+
+import numpy as np
+import xarray as xr
+
+from . import CAUTION, thermo
+from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
+from .errors import ConfigError, IcingError
+from .units import KT
+
+__all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
+           "grid_main", "add_grid_parser", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
+
+N_FREEZING_LEVELS = 3  # freezing levels kept per column, lowest first
+DEFAULT_CHUNK_POINTS = 400_000  # level-points per chunk: ~3 MB per float64 field, a few hundred MB of temporaries
+ACCRETION_OUTPUTS = ("potential_rate", "potential_intensity", "ice_type")
+SUMMARY_OUTPUTS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", "supercooled_top_m",
+                   "max_potential_intensity", "max_potential_rate")
+_DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool, "large_drop": np.int8,
+           "cloud_kind": np.int8, "precipitation_type": np.int8, "freezing_level_count": np.int64,
+           "potential_intensity": np.int8, "ice_type": np.int8, "max_potential_intensity": np.int8}
+_ATTRS = {
+    "potential_rate": {"units": "mm/h", "long_name": "ice thickness growth rate on the aircraft's reference "
+                       "body at cruise true airspeed (accretion potential; NaN unknown)"},
+    "potential_intensity": {"long_name": "intensity of the accretion potential", "flag_values":
+                            np.array([-1, 0, 1, 2, 3, 4], np.int8),
+                            "flag_meanings": "unknown none trace light moderate severe"},
+    "ice_type": {"long_name": "ice type of the accretion potential", "flag_values": np.array([-1, 0, 1, 2, 3],
+                 np.int8), "flag_meanings": "unknown none rime mixed glaze"},
+    "freezing_level_m": {"units": "m", "long_name": "lowest freezing level (0 degC) above mean sea level; the "
+                         "lowest level's height where that level is already at or below 0 degC"},
+    "freezing_levels": {"units": "m", "long_name": "heights of the 0 degC crossings, lowest first (NaN: none)"},
+    "supercooled_base_m": {"units": "m", "long_name": "height of the lowest level with supercooled liquid possible"},
+    "supercooled_top_m": {"units": "m", "long_name": "height of the highest level with supercooled liquid possible"},
+    "max_potential_intensity": {"long_name": "largest intensity of the accretion potential in the column (-1 "
+                                "unknown: no valid level, or missing levels aloft and nothing found)",
+                                "flag_values": np.array([-1, 0, 1, 2, 3, 4], np.int8),
+                                "flag_meanings": "unknown none trace light moderate severe"},
+    "max_potential_rate": {"units": "mm/h", "long_name": "largest accretion potential in the column"},
+}
+
+
+# --- the numpy core: one chunk of columns -----------------------------------------------------------------
+
+def column_summaries(temperature, height, supercooled, valid):
+    """2-D summaries of columns (..., level), pressure decreasing along the level axis (plain SI).
+
+    Temperature in K, height in m; ``valid`` is unused for the freezing levels (a measured temperature counts
+    without humidity) and kept for the signature. Returns ``freezing_level_m`` (lowest 0 degC crossing, linear
+    in height between the levels with a temperature that bracket it; the lowest such level's height where it
+    is already at or below 273.15 K), ``freezing_levels`` (...,
+    N_FREEZING_LEVELS: every crossing, up or down, lowest first, NaN beyond), ``supercooled_base_m`` and
+    ``supercooled_top_m`` (heights of the lowest and highest supercooled levels, NaN if none).
+    """
+    t = np.asarray(temperature, dtype=float) - thermo.T0  # a measured temperature counts even without humidity
+    z = np.asarray(height, dtype=float)
+    fin = np.isfinite(t) & np.isfinite(z)
+    if not fin.all():  # close up the missing levels (crossings are found between neighbouring valid levels)
+        order = np.argsort(~fin, axis=-1, kind="stable")
+        t = np.where(np.take_along_axis(fin, order, -1), np.take_along_axis(t, order, -1), np.nan)
+        z = np.where(np.take_along_axis(fin, order, -1), np.take_along_axis(z, order, -1), np.nan)
+        sc_z = np.where(np.asarray(supercooled, dtype=bool) & np.isfinite(height), height, np.nan)
+    else:
+        sc_z = np.where(supercooled, z, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t0, t1 = t[..., :-1], t[..., 1:]
+        cross = np.isfinite(t0) & np.isfinite(t1) & ((t0 > 0) != (t1 > 0))
+        frac = np.where(cross, t0 / np.where(cross, t0 - t1, 1.0), 0.0)
+        zc = z[..., :-1] + frac * (z[..., 1:] - z[..., :-1])
+    n_cross = np.cumsum(cross, axis=-1)
+    lead = t.shape[:-1]
+    levels = np.full(lead + (N_FREEZING_LEVELS,), np.nan)
+    for c in range(N_FREEZING_LEVELS):
+        hit = cross & (n_cross == c + 1)
+        k = np.argmax(hit, axis=-1)[..., None]
+        levels[..., c] = np.where(hit.any(axis=-1), np.take_along_axis(zc, k, axis=-1)[..., 0], np.nan)
+    first = np.argmax(np.isfinite(t), axis=-1)[..., None]
+    t_low = np.take_along_axis(t, first, axis=-1)[..., 0]
+    z_low = np.take_along_axis(z, first, axis=-1)[..., 0]
+    lowest = np.where(t_low <= 0.0, z_low, levels[..., 0])
+    sc = np.isfinite(sc_z)
+    with np.errstate(invalid="ignore"):
+        base = np.where(sc.any(axis=-1), np.min(np.where(sc, sc_z, np.inf), axis=-1), np.nan)
+        top = np.where(sc.any(axis=-1), np.max(np.where(sc, sc_z, -np.inf), axis=-1), np.nan)
+    return {"freezing_level_m": lowest, "freezing_levels": levels, "supercooled_base_m": base,
+            "supercooled_top_m": top}
+
+
+@contextlib.contextmanager
+def _quiet_nan():
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        yield
+
+
+def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
+              cold_limit=233.15, airmass="continental", **thresholds):
+    """The whole chain on a block of columns, plain SI numpy in and out (shape (..., level)).
+
+    Parameters
+    ----------
+    pressure, temperature, dewpoint, height, cloud_liquid :
+        Pa, K, K, m, kg/m3 as :func:`icing.diagnose.diagnose_arrays` (pressure may be 1-D per level).
+    airspeed, body_diameter : float, optional
+        True airspeed (m/s) and reference-body diameter (m) for the accretion potential; without them only
+        the diagnostics and the freezing-level/supercooled summaries are computed.
+
+    Returns
+    -------
+    dict of ndarray
+        The outputs of :func:`diagnose_arrays`, the summaries of :func:`column_summaries` and, with an
+        aircraft, ``potential_rate`` (mm/h of ice thickness on the leading edge, Makkonen 2000; 0 where no
+        supercooled liquid, NaN where the level is not valid), ``potential_intensity`` and ``ice_type`` (int8
+        codes of :func:`icing.accretion.intensity_code` and :func:`icing.accretion.ice_type_code`; -1 unknown),
+        ``max_potential_intensity`` and ``max_potential_rate`` per column.
+    """
+    shape = np.broadcast_shapes(*(np.shape(a) for a in (pressure, temperature, dewpoint, height)))
+    d = diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit,
+                        airmass=airmass, **thresholds)
+    z = np.broadcast_to(np.asarray(height, dtype=float), shape)
+    t = np.broadcast_to(np.asarray(temperature, dtype=float), shape)
+    d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
+    if airspeed is None:
+        return d
+    from .accretion import accretion_core, intensity_code
+
+    valid = d["valid"]
+    icing = d["supercooled"] & valid & (d["lwc"] > 0)
+    rate = np.where(valid, 0.0, np.nan)
+    ice = np.where(valid, 0, -1).astype(np.int8)
+    idx = np.flatnonzero(icing)
+    if idx.size:  # only the supercooled levels (a small share of a grid) go through the heat balance
+        p = np.broadcast_to(np.asarray(pressure, dtype=float), shape).ravel()[idx]
+        core = accretion_core(d["lwc"].ravel()[idx] / 1000.0, d["mvd"].ravel()[idx] * 1e-6, float(airspeed),
+                              t.ravel()[idx], p, float(body_diameter))
+        rate.ravel()[idx] = core["thickness_rate"]
+        ice.ravel()[idx] = core["ice_type"]
+    code = intensity_code(rate).astype(np.int8)
+    first = np.argmax(valid, axis=-1)[..., None]
+    above_first = np.arange(shape[-1]) >= first
+    unknown_aloft = np.any(~valid & above_first, axis=-1)
+    worst = code.max(axis=-1)
+    worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
+    with _quiet_nan():
+        max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
+    d.update({"potential_rate": rate * 1000.0 * 3600.0, "potential_intensity": code, "ice_type": ice,
+              "max_potential_intensity": worst, "max_potential_rate": max_rate})
+    return d
+
+
+# --- xarray / dask layer ------------------------------------------------------------------------------
+
+def _si(da, unit):
+    """Linear conversion of a (lazy) DataArray from its ``units`` attribute to ``unit``."""
+    from .units import ureg
+
+    src = da.attrs.get("units")
+    if src is None:
+        raise ConfigError(f"model variable {da.name!r} has no units attribute")
+    a = ureg.Quantity(0.0, src).to(unit).magnitude
+    b = ureg.Quantity(1.0, src).to(unit).magnitude - a
+    return da if (a, b) == (0.0, 1.0) else da * b + a
+
+
+def _aircraft(aircraft, airspeed_kt=None):
+    if aircraft is None:
+        return None, None, None
+    from .aircraft import get_aircraft
+
+    ac = get_aircraft(aircraft) if not hasattr(aircraft, "body_diameter_m") else aircraft
+    tas = float(airspeed_kt if airspeed_kt is not None else ac.tas_cruise_kt) * KT
+    return ac, tas, float(ac.body_diameter_m)
+
+
+def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental",
+                  airspeed_kt=None, **thresholds) -> xr.Dataset:
+    """Diagnostics, summaries and (with an aircraft) the accretion potential of a whole gridded profile Dataset.
+
+    Parameters
+    ----------
+    model : xarray.Dataset
+        A gridded profile Dataset (:func:`icing.io.model.read_model`): ``level`` the last dimension, any
+        leading ones. Dask-backed (see :func:`chunk_model`) it stays lazy; numpy-backed it is computed now.
+    aircraft : preset name, TOML path or Aircraft, optional
+        For the accretion potential at its cruise true airspeed (or ``airspeed_kt``) on its reference body.
+    cold_limit : float
+        Coldest supercooled liquid, degC (default -40).
+    airmass, thresholds :
+        As :func:`icing.diagnose.diagnose`.
+
+    Returns
+    -------
+    xarray.Dataset
+        Inputs ``pressure``, ``height``, ``temperature`` (and winds), the level fields of
+        :data:`icing.diagnose.LEVEL_OUTPUTS` (plus ``potential_rate``, ``potential_intensity``, ``ice_type``
+        with an aircraft) and the per-column fields ``precipitation_type``, ``freezing_level_count``,
+        ``freezing_level_m``, ``freezing_levels`` (dim ``crossing``), ``supercooled_base_m``,
+        ``supercooled_top_m`` (and ``max_potential_intensity``, ``max_potential_rate``). Attributes carry the
+        settings, the model's ``quality`` record and the caution.
+    """
+    from . import diagnose as _diagnose
+    from .layers import CLOUD_DEFAULTS
+
+    diag_attrs = getattr(_diagnose, "_ATTRS", {})  # the level fields' units and long names, kept with them
+
+    for name in ("pressure", "temperature", "dewpoint", "height"):
+        if name not in model:
+            raise ConfigError(f"model grid has no {name!r} variable")
+    if model["temperature"].dims[-1] != "level":
+        raise ConfigError("the model grid's last dimension must be 'level'")
+    unknown = set(thresholds) - set(CLOUD_DEFAULTS)
+    if unknown:
+        raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(CLOUD_DEFAULTS)}")
+    ck = float(cold_limit) + thermo.T0
+    ac, tas, diam = _aircraft(aircraft, airspeed_kt)
+    inputs = [_si(model["pressure"], "Pa"), _si(model["temperature"], "K"), _si(model["dewpoint"], "K"),
+              _si(model["height"], "m")]
+    has_cl = "cloud_liquid" in model
+    if has_cl:
+        inputs.append(_si(model["cloud_liquid"], "kg/m^3"))
+    level_names = list(LEVEL_OUTPUTS) + (list(ACCRETION_OUTPUTS) if ac is not None else [])
+    column_names = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS[:4]) + (list(SUMMARY_OUTPUTS[4:]) if ac else [])
+    names = level_names + column_names
+
+    def core(*arrs):
+        out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
+                        cold_limit=ck, airmass=airmass, **thresholds)
+        return tuple(out[k] for k in names)
+
+    core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []
+                 for n in names]
+    results = xr.apply_ufunc(
+        core, *inputs, input_core_dims=[["level"]] * len(inputs), output_core_dims=core_dims,
+        dask="parallelized", output_dtypes=[_DTYPES.get(n, float) for n in names],
+        dask_gufunc_kwargs={"allow_rechunk": False, "output_sizes": {"crossing": N_FREEZING_LEVELS}})
+    lead = [d for d in model["temperature"].dims if d != "level"]
+    keep = [v for v in ("pressure", "height", "temperature", "dewpoint", "wind_speed", "wind_direction",
+                        "cloud_liquid") if v in model]
+    ds = model[keep].copy()
+    for name, da, dims in zip(names, results, core_dims, strict=True):
+        ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or diag_attrs.get(name, {}))
+    ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1))
+    ds.attrs = {k: v for k, v in model.attrs.items() if k not in ("featureType", "icing_model")}
+    ds.attrs.update({"cold_limit": float(cold_limit), "cold_limit_units": "degC", "airmass": str(airmass),
+                     "lwc_source": "model cloud liquid" if has_cl else "adiabatic", "caution": CAUTION,
+                     "quality": list(model.attrs.get("quality", []))})
+    if ac is not None:
+        ds.attrs.update({"aircraft": str(getattr(ac, "name", aircraft)), "airspeed_kt": tas / KT,
+                         "body_diameter_m": diam})
+    return ds
+
+
+def chunk_model(model: xr.Dataset, points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
+    """Rechunk a gridded Dataset for :func:`diagnose_grid`: one time per chunk, all levels of a column in one
+    chunk, square-ish latitude/longitude tiles of about ``points`` level-points."""
+    nlev = model.sizes["level"]
+    cols = max(int(points // nlev), 1)
+    side = max(int(np.sqrt(cols)), 1)
+    chunks = {"level": -1}
+    for d in model["temperature"].dims:
+        if d == "level":
+            continue
+        chunks[d] = 1 if d not in ("latitude", "longitude") else side
+    if "latitude" in chunks and "longitude" in chunks:
+        nlat = model.sizes["latitude"]
+        if nlat < side:  # a narrow grid: give the longitude tiles the columns the latitude cannot use
+            chunks["longitude"] = max(cols // nlat, 1)
+    return model.chunk({k: v for k, v in chunks.items() if k in model.dims})
+
+
+@contextlib.contextmanager
+def scheduler(workers=None, address=None, *, threads_per_worker=1, processes=True, quiet=True):
+    """Where dask runs: the threaded scheduler (default), a LocalCluster of ``workers`` processes, or a running
+    cluster at ``address``. Yields the :class:`distributed.Client` or None (threads)."""
+    if address and workers:
+        raise IcingError("give either a scheduler address or a number of workers, not both")
+    if not address and not workers:
+        import dask
+
+        with dask.config.set(scheduler="threads"):
+            yield None
+        return
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError:
+        raise IcingError("--workers/--scheduler need dask.distributed (pip install 'icing[scale]')") from None
+    if address:
+        with Client(address) as client:
+            yield client
+        return
+    import logging
+
+    import dask
+
+    kwargs = {"silence_logs": logging.ERROR} if quiet else {}
+    # distributed starts its worker processes with MALLOC_TRIM_THRESHOLD_=65536, which turns off glibc's
+    # adaptive mmap threshold: every large numpy temporary is then mapped and faulted in afresh, and the chain
+    # runs 3-4 times slower. Leave glibc's defaults (dask's own setting; None unsets it).
+    with dask.config.set({"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None}), \
+            LocalCluster(n_workers=int(workers), threads_per_worker=threads_per_worker, processes=processes,
+                         dashboard_address=None, **kwargs) as cluster, Client(cluster) as client:
+        yield client
+
+
+def _encodable(ds):
+    out = ds.copy()
+    out.attrs = dict(ds.attrs)
+    out.attrs["quality_json"] = json.dumps(out.attrs.pop("quality", []))
+    for k, v in list(out.attrs.items()):
+        if v is None or isinstance(v, dict | list):
+            out.attrs[k] = json.dumps(v)
+    return out
+
+
+def write_grid(ds: xr.Dataset, path, *, client=None, progress=True, variables=None):
+    """Write a (lazy) diagnosed grid to netCDF (``.nc``, h5netcdf) or zarr (``.zarr``, needs zarr), computing
+    chunk by chunk on the current scheduler (or ``client``) with a progress bar on stderr.
+
+    ``variables`` limits what is written (for example only the 2-D summaries)."""
+    from pathlib import Path
+
+    path = Path(path)
+    if variables is not None:
+        ds = ds[list(variables)]
+    ds = _encodable(ds)
+    is_zarr = path.suffix == ".zarr"
+    if is_zarr:
+        try:
+            import zarr  # noqa: F401
+        except ImportError:
+            raise IcingError("writing zarr needs the zarr package; write .nc instead") from None
+    if not ds.chunks:
+        if is_zarr:
+            ds.to_zarr(path, mode="w")
+        else:
+            ds.to_netcdf(path, engine="h5netcdf")
+        return path
+    delayed = ds.to_zarr(path, mode="w", compute=False) if is_zarr else ds.to_netcdf(path, engine="h5netcdf",
+                                                                                       compute=False)
+    if client is not None:
+        future = client.compute(delayed)
+        if progress:
+            from distributed import progress as show
+
+            with contextlib.redirect_stdout(sys.stderr):  # stdout is for results
+                show(future, notebook=False)
+                print()
+        future.result()
+    elif progress:
+        from dask.diagnostics import ProgressBar
+
+        with ProgressBar(out=sys.stderr, dt=0.5):
+            delayed.compute()
+    else:
+        delayed.compute()
+    return path
+
+
+# --- command line -------------------------------------------------------------------------------------
+
+EXAMPLE = ("examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out potential.nc\n"
+           "  icing grid fields_*.grib2 --aircraft regional-jet --out potential.nc --workers 2\n"
+           "  icing grid big.nc --aircraft turboprop --out potential.nc --scheduler tcp://10.0.0.5:8786")
+
+
+def add_grid_parser(subparsers):
+    """Add ``icing grid FIELDS --aircraft NAME --out FILE`` to an argparse subparsers object."""
+    import argparse
+
+    gp = subparsers.add_parser("grid", help="icing diagnostics and accretion potential over model grids",
+                               epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+    gp.add_argument("fields", nargs="+", metavar="FIELDS", help="model files on pressure levels (netCDF with CF "
+                    "names, or GRIB2 with cfgrib); several files are joined along time")
+    gp.add_argument("--aircraft", default="turboprop", help="preset name or TOML file (default turboprop)")
+    gp.add_argument("--out", required=True, metavar="FILE", help="output .nc (netCDF4) or .zarr")
+    gp.add_argument("--airspeed", type=float, metavar="KT", help="true airspeed, kt (default: the aircraft's "
+                    "cruise speed)")
+    gp.add_argument("--cold-limit", type=float, default=DEFAULT_COLD_LIMIT_C, help="coldest supercooled liquid, "
+                    "degC (-40)")
+    gp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
+    gp.add_argument("--summary-only", action="store_true", help="write only the 2-D column summaries")
+    gp.add_argument("--chunk-points", type=int, default=DEFAULT_CHUNK_POINTS, metavar="N",
+                    help=f"level-points per chunk (default {DEFAULT_CHUNK_POINTS})")
+    where = gp.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N", help="run on a dask LocalCluster of N processes")
+    where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster")
+    gp.add_argument("--quiet", action="store_true", help="no progress bar")
+    return gp
+
+
+def open_fields(paths, chunk_points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
+    """Read one or more model files lazily and join them along time (sorted; duplicate times raise)."""
+    from .io.model import read_model
+
+    parts = [read_model(p, chunks={}) for p in paths]
+    if len(parts) == 1:
+        ds = parts[0]
+    else:
+        ds = xr.concat(parts, dim="time", data_vars="minimal", coords="minimal", compat="override",
+                       combine_attrs="drop_conflicts").sortby("time")
+        times = ds["time"].values
+        if np.unique(times).size != times.size:
+            raise IcingError("the model files repeat a valid time")
+        ds.attrs["quality"] = [e for p in parts for e in p.attrs.get("quality", [])]
+        ds.attrs["source"] = ";".join(str(p) for p in paths)
+    return chunk_model(ds, chunk_points)
+
+
+def grid_main(args) -> int:
+    """Run ``icing grid``: read, diagnose lazily, write, and print a short summary (stderr: progress)."""
+    if args.workers is not None and args.workers < 1:
+        raise IcingError("--workers must be at least 1")
+    model = open_fields(args.fields, args.chunk_points)
+    ds = diagnose_grid(model, args.aircraft, cold_limit=args.cold_limit, airmass=args.airmass,
+                       airspeed_kt=args.airspeed)
+    names = None
+    if args.summary_only:
+        names = [n for n in ds.data_vars if "level" not in ds[n].dims]
+    npts = int(np.prod([model.sizes[d] for d in model["temperature"].dims]))
+    print(CAUTION, file=sys.stderr)
+    where = (f"a LocalCluster of {args.workers} workers" if args.workers else
+             f"the cluster at {args.scheduler}" if args.scheduler else "the threaded scheduler")
+    print(f"icing grid: {npts:,} level-points in {ds['temperature'].data.npartitions} chunks on {where}",
+          file=sys.stderr)
+    with scheduler(args.workers, args.scheduler) as client:
+        out = write_grid(ds, args.out, client=client, progress=not args.quiet, variables=names)
+    with xr.open_dataset(out, engine="h5netcdf") if out.suffix != ".zarr" else xr.open_zarr(out) as res:
+        worst = int(res["max_potential_intensity"].max()) if "max_potential_intensity" in res else None
+        unknown = int((res["max_potential_intensity"] < 0).sum()) if "max_potential_intensity" in res else 0
+    labels = ["unknown", "none", "trace", "light", "moderate", "severe"]
+    print(f"wrote {out}: aircraft {ds.attrs.get('aircraft')}, largest potential intensity "
+          f"{labels[worst + 1] if worst is not None else 'n/a'}; {unknown} columns unknown")
+    return 0
+

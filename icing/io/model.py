@@ -1,0 +1,439 @@
+"""Model fields on pressure levels (netCDF with CF names, or GRIB2 through cfgrib) as a gridded profile Dataset.
+
+:func:`read_model` opens a file (lazily when ``chunks`` is given) and :func:`normalise_model` turns any such
+Dataset into the profile model of :mod:`icing.profile` with leading dimensions: dims ``(time, latitude,
+longitude, level)``, ``level`` last with pressure decreasing (surface first), latitude increasing, longitude
+in -180..180 (or 0..360 when the domain is contiguous only that way, as across the antimeridian), and the
+variables ``pressure`` (hPa, per level), ``temperature`` (degC), ``dewpoint`` (degC), ``height`` (m,
+geopotential), where given ``relative_humidity`` (percent), ``cloud_liquid`` (g/m3), ``wind_speed`` (m/s) and
+``wind_direction`` (deg). What is recognised:
+
+============================  ==========================================================  ================
+quantity                      CF standard_name                                            GRIB short name
+============================  ==========================================================  ================
+temperature                   air_temperature                                             t
+relative humidity (% or 1)    relative_humidity                                           r
+specific humidity             specific_humidity                                           q
+dewpoint                      dew_point_temperature                                       dpt
+geopotential height           geopotential_height                                         gh
+geopotential (m2/s2)          geopotential                                                z
+cloud liquid (kg/kg)          mass_fraction_of_cloud_liquid_water_in_air                  clwc, clwmr
+cloud liquid (kg/m3)          mass_concentration_of_cloud_liquid_water_in_air             --
+wind components               eastward_wind, northward_wind                               u, v
+surface pressure              surface_air_pressure                                        sp
+============================  ==========================================================  ================
+
+Units come from each variable's ``units`` attribute (never guessed): relative humidity in percent or as a
+fraction (unit ``1``), geopotential divided by standard gravity (WMO definition of the geopotential metre),
+pressure levels in Pa or hPa. Every change is listed in the ``quality`` attribute: reordered axes, converted
+units, derived quantities, the range checks of :mod:`icing.profile` (temperature outside -100..60 degC and
+relative humidity above 105 % set missing, 100-105 % set to 100 %) and levels below the ground (pressure above
+the surface pressure, where a surface pressure is given) set missing. Missing stays NaN: it is never "no cloud".
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from .. import thermo
+from ..errors import SoundingFormatError
+from ..profile import RH_MAX, T_RANGE, VARIABLES
+from ..units import ureg
+
+__all__ = ["read_model", "normalise_model", "sniff_grib", "FORMAT_NETCDF", "FORMAT_GRIB"]
+
+FORMAT_NETCDF = "model-netcdf"
+FORMAT_GRIB = "model-grib2"
+
+# quantity: (CF standard names, GRIB short names or common variable names)
+_FIELDS = {
+    "temperature": (("air_temperature",), ("t", "ta", "tmp", "temperature")),
+    "relative_humidity": (("relative_humidity",), ("r", "rh", "hur", "relative_humidity")),
+    "specific_humidity": (("specific_humidity",), ("q", "hus", "spfh", "specific_humidity")),
+    "dewpoint": (("dew_point_temperature",), ("dpt", "td", "dewpoint")),
+    "geopotential_height": (("geopotential_height",), ("gh", "zg", "hgt", "height")),
+    "geopotential": (("geopotential",), ("z",)),
+    "cloud_liquid_fraction": (("mass_fraction_of_cloud_liquid_water_in_air", "cloud_liquid_water_mixing_ratio"),
+                              ("clwc", "clwmr", "clw")),
+    "cloud_liquid_concentration": (("mass_concentration_of_cloud_liquid_water_in_air",), ("cloud_liquid",)),
+    "eastward_wind": (("eastward_wind",), ("u", "ua", "ugrd")),
+    "northward_wind": (("northward_wind",), ("v", "va", "vgrd")),
+    "surface_pressure": (("surface_air_pressure",), ("sp", "ps", "pres_sfc")),
+}
+_VERTICAL_NAMES = ("isobaricInhPa", "pressure_level", "plev", "level", "lev", "pressure", "isobaric", "pres")
+_LAT_NAMES = ("latitude", "lat")
+_LON_NAMES = ("longitude", "lon")
+_TIME_NAMES = ("time", "valid_time", "t")
+
+
+def sniff_grib(head: bytes) -> bool:
+    """Does the start of a file look like GRIB (edition 1 or 2)?"""
+    return head[:4] == b"GRIB"
+
+
+def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
+    """Read model fields on pressure levels from a netCDF or GRIB2 file into the gridded profile Dataset.
+
+    Parameters
+    ----------
+    path : str or path-like
+        netCDF (CF standard names and units) or GRIB2 (needs the optional ``cfgrib`` package, the ``grib``
+        extra; only the isobaric levels are read).
+    chunks : dict, "auto" or None
+        Passed to :func:`xarray.open_dataset`; given, every variable is a lazy dask array (the ``level``
+        dimension is always kept in one chunk). None reads eagerly.
+    engine : str, optional
+        The xarray backend; by default ``cfgrib`` for GRIB and ``h5netcdf`` (else any installed) for netCDF.
+
+    Raises
+    ------
+    SoundingFormatError
+        The file is missing, not readable, or lacks temperature, humidity, pressure levels or a valid time.
+    """
+    path = Path(path)
+    if not path.exists():
+        raise SoundingFormatError("no such model file", file=path)
+    with open(path, "rb") as fh:
+        head = fh.read(16)
+    is_grib = sniff_grib(head) or engine == "cfgrib"
+    if is_grib:
+        try:
+            import cfgrib  # noqa: F401
+        except ImportError:
+            raise SoundingFormatError("reading GRIB2 needs the optional cfgrib package (pip install "
+                                      "'icing[grib]')", file=path) from None
+        try:
+            ds = xr.open_dataset(path, engine="cfgrib", chunks=chunks, decode_timedelta=True,
+                                 backend_kwargs={"filter_by_keys": {"typeOfLevel": "isobaricInhPa"},
+                                                 "indexpath": ""})
+        except Exception as exc:
+            raise SoundingFormatError(f"cannot read as GRIB2: {exc}", file=path) from None
+        fmt = FORMAT_GRIB
+    else:
+        ds = None
+        errors = []
+        for eng in ([engine] if engine else ["h5netcdf", None]):
+            try:
+                ds = xr.open_dataset(path, engine=eng, chunks=chunks)
+                break
+            except Exception as exc:  # each backend raises its own types
+                errors.append(str(exc))
+        if ds is None:
+            raise SoundingFormatError(f"cannot open as netCDF: {errors[0]}", file=path)
+        fmt = FORMAT_NETCDF
+    return normalise_model(ds, source=str(path), format=fmt)
+
+
+# --- helpers -------------------------------------------------------------------------------------------
+
+def _unit(text, name, source):
+    """The pint unit of a CF/UDUNITS unit string ('m s-1', 'm**2 s**-2', '%', 'K', 'gpm', '(0 - 1)')."""
+    s = str(text).strip()
+    if s in ("%", "percent"):
+        return ureg.Unit("percent")
+    if s in ("", "1", "(0 - 1)", "0-1", "fraction", "dimensionless", "kg kg**-1", "kg kg-1", "kg/kg"):
+        return ureg.Unit("dimensionless")
+    if s.lower() in ("gpm", "gpdam"):
+        return ureg.Unit("m" if s.lower() == "gpm" else "dam")
+    s = re.sub(r"([A-Za-z]+)\^?(-?\d+)", r"\1**\2", s.replace("**", "^"))
+    s = re.sub(r"\s+", "*", s.strip())
+    try:
+        return ureg.Unit(s)
+    except Exception:
+        raise SoundingFormatError(f"variable {name!r}: unknown unit {text!r}", file=source) from None
+
+
+def _convert(da, to, name, source):
+    """Lazy-safe linear conversion of ``da`` from its ``units`` attribute to ``to``."""
+    if "units" not in da.attrs:
+        raise SoundingFormatError(f"variable {name!r} has no units attribute (units are never guessed)",
+                                  file=source)
+    src = _unit(da.attrs["units"], name, source)
+    try:
+        a = ureg.Quantity(0.0, src).to(to).magnitude
+        b = ureg.Quantity(1.0, src).to(to).magnitude - a
+    except Exception:
+        raise SoundingFormatError(f"variable {name!r}: unit {da.attrs['units']!r} does not convert to {to}",
+                                  file=source) from None
+    out = da if (a, b) == (0.0, 1.0) else da * b + a
+    return out.assign_attrs({})
+
+
+def _find(ds, quantity):
+    stds, names = _FIELDS[quantity]
+    for vname, var in ds.data_vars.items():
+        if var.attrs.get("standard_name") in stds:
+            return vname
+    for vname, var in ds.data_vars.items():
+        if var.attrs.get("GRIB_shortName") in names or vname in names:
+            return vname
+    return None
+
+
+def _coord_name(ds, std, names, units=()):
+    for name, var in ds.coords.items():
+        if var.attrs.get("standard_name") == std:
+            return name
+    for name in names:
+        if name in ds.coords or name in ds.dims:
+            return name
+    for name, var in ds.coords.items():
+        if str(var.attrs.get("units", "")) in units:
+            return name
+    return None
+
+
+def _vertical(ds, source):
+    for name, var in ds.coords.items():
+        if var.ndim == 1 and (var.attrs.get("standard_name") == "air_pressure" or name in _VERTICAL_NAMES):
+            return name
+    raise SoundingFormatError("no pressure-level coordinate (standard_name air_pressure, or isobaricInhPa, "
+                              "pressure_level, plev, level); only fields on pressure levels are read", file=source)
+
+
+def _valid_time(ds, quality):
+    """Fold cfgrib's reference ``time`` x forecast ``step`` into one ``time`` dimension of valid times."""
+    if "step" in ds.dims:
+        if "valid_time" not in ds.coords:
+            ds = ds.assign_coords(valid_time=ds["time"] + ds["step"])
+        if "time" in ds.dims:
+            ds = ds.stack(_vt=("time", "step"))
+            vt = ds["valid_time"].values
+            ds = ds.drop_vars(["_vt", "time", "step", "valid_time"], errors="ignore")
+            ds = ds.assign_coords(_vt=vt).rename({"_vt": "time"})
+        else:
+            ds = ds.swap_dims({"step": "valid_time"}).drop_vars(["step", "time"], errors="ignore")
+            ds = ds.rename({"valid_time": "time"})
+        quality.append({"level": None, "action": "changed", "reason": "valid time = reference time + forecast step"})
+    elif "valid_time" in ds.dims and "time" not in ds.dims:
+        ds = ds.drop_vars(["time"], errors="ignore").rename({"valid_time": "time"})
+    elif "time" not in ds.dims:
+        tname = next((n for n in _TIME_NAMES if n in ds.coords and ds[n].ndim == 0), None)
+        if tname is None:
+            return ds
+        t = ds[tname].values
+        ds = ds.drop_vars([n for n in _TIME_NAMES if n in ds.coords and ds[n].ndim == 0]).expand_dims(time=[t])
+    return ds
+
+
+def _normalise_longitude(lon):
+    """New longitudes in -180..180 if that keeps the grid contiguous, else in 0..360; and the sort order."""
+    lon = np.asarray(lon, dtype=float)
+    step = np.min(np.abs(np.diff(np.sort(lon)))) if lon.size > 1 else 1.0
+    global_grid = lon.size > 1 and lon.size * step >= 360.0 - 1e-6
+    for wrapped in (((lon + 180.0) % 360.0) - 180.0, lon % 360.0):
+        order = np.argsort(wrapped, kind="stable")
+        gaps = np.diff(wrapped[order])
+        if global_grid or gaps.size == 0 or gaps.max() <= 1.5 * step + 1e-9:
+            return wrapped, order
+    raise SoundingFormatError("longitudes do not form one contiguous range in either -180..180 or 0..360")
+
+
+def normalise_model(ds: xr.Dataset, *, source="", format=FORMAT_NETCDF) -> xr.Dataset:
+    """Turn a Dataset of model fields on pressure levels into the gridded profile Dataset (see module notes).
+
+    Works lazily on dask-backed input (nothing is computed). ``source`` names the file in errors and in the
+    ``source`` attribute.
+    """
+    quality = []
+    src = source or None
+    ds = _valid_time(ds, quality)
+    zname = _vertical(ds, src)
+    latn = _coord_name(ds, "latitude", _LAT_NAMES, ("degrees_north", "degree_north"))
+    lonn = _coord_name(ds, "longitude", _LON_NAMES, ("degrees_east", "degree_east"))
+    if latn is None or lonn is None:
+        raise SoundingFormatError("no latitude/longitude coordinates (a regular latitude-longitude grid is "
+                                  "needed)", file=src)
+    if "time" not in ds.dims:
+        raise SoundingFormatError("no valid time (a time coordinate) in the model file", file=src)
+    ds = ds.rename({n: c for n, c in ((latn, "latitude"), (lonn, "longitude"), (zname, "_plev")) if n != c})
+    for c in ("latitude", "longitude"):
+        if ds[c].ndim != 1:
+            raise SoundingFormatError(f"{c} is {ds[c].ndim}-D; only regular latitude-longitude grids are read",
+                                      file=src)
+    names = {q: _find(ds, q) for q in _FIELDS}
+    if names["temperature"] is None:
+        raise SoundingFormatError("no temperature (standard_name air_temperature, GRIB short name t)", file=src)
+    if not any(names[q] for q in ("relative_humidity", "specific_humidity", "dewpoint")):
+        raise SoundingFormatError("no humidity (relative_humidity r, specific_humidity q or "
+                                  "dew_point_temperature)", file=src)
+    dims = ("time", "latitude", "longitude", "_plev")
+    for q, vname in names.items():
+        if vname is None:
+            continue
+        var = ds[vname]
+        want = dims if q != "surface_pressure" else dims[:3]
+        extra = [d for d in var.dims if d not in want]
+        for d in extra:
+            if var.sizes[d] != 1:
+                raise SoundingFormatError(f"variable {vname!r} has an extra dimension {d!r} of size "
+                                          f"{var.sizes[d]}; select one member first", file=src)
+        var = var.squeeze(extra, drop=True) if extra else var
+        ds[vname] = var.transpose(*[d for d in want if d in var.dims])
+    # Axis order: latitude increasing, longitude contiguous, pressure decreasing.
+    lat = ds["latitude"].values.astype(float)
+    if lat.size > 1 and lat[0] > lat[-1]:
+        ds = ds.isel(latitude=slice(None, None, -1))
+        quality.append({"level": None, "action": "reordered", "reason": "latitudes reversed to increasing"})
+    lat = ds["latitude"].values.astype(float)
+    if lat.size > 1 and np.any(np.diff(lat) <= 0):
+        raise SoundingFormatError("latitudes are not monotonic", file=src)
+    lon_old = ds["longitude"].values.astype(float)
+    try:
+        lon_new, order = _normalise_longitude(lon_old)
+    except SoundingFormatError as exc:
+        raise SoundingFormatError(exc.reason, file=src) from None
+    if not (np.array_equal(lon_new, lon_old) and np.array_equal(order, np.arange(lon_old.size))):
+        ds = ds.assign_coords(longitude=lon_new).isel(longitude=order)
+        quality.append({"level": None, "action": "changed", "reason": f"longitudes from "
+                        f"{lon_old.min():g}..{lon_old.max():g} to {lon_new.min():g}..{lon_new.max():g} "
+                        "(increasing)"})
+    plev_var = ds["_plev"]
+    plev_units = plev_var.attrs.get("units") or ("hPa" if zname == "isobaricInhPa" else None)
+    if plev_units is None:
+        raise SoundingFormatError(f"pressure coordinate {zname!r} has no units attribute", file=src)
+    p_hpa = _convert(plev_var.assign_attrs(units=plev_units), "hPa", zname, src).values.astype(float)
+    order = np.argsort(-p_hpa, kind="stable")
+    if not np.array_equal(order, np.arange(p_hpa.size)):
+        ds = ds.isel(_plev=order)
+        p_hpa = p_hpa[order]
+        quality.append({"level": None, "action": "reordered", "reason": "levels sorted by decreasing pressure"})
+    ds = ds.drop_vars("_plev").rename({"_plev": "level"}).assign_coords(level=np.arange(p_hpa.size))
+    if ds.chunks:
+        ds = ds.chunk({"level": -1})
+    out = _fields(ds, names, p_hpa, quality, src)
+    out.attrs = {"source": str(source), "format": format, "quality": quality, "featureType": "grid",
+                 "Conventions": "CF-1.8", "icing_model": 1}
+    for k in ("title", "institution", "name", "scenario", "model"):
+        if k in ds.attrs:
+            out.attrs[k] = ds.attrs[k]
+    return out
+
+
+def _fields(ds, names, p_hpa, quality, src):
+    """Canonical variables in canonical units (lazy arithmetic only)."""
+    coords = {c: ds[c] for c in ("time", "latitude", "longitude", "level")}
+    pressure = xr.DataArray(p_hpa, dims="level")
+    p_pa = pressure * 100.0
+    note = quality.append
+
+    def get(q, unit):
+        vname = names[q]
+        da = ds[vname]
+        conv = _convert(da, unit, vname, src)
+        if _unit(da.attrs["units"], vname, src) != ureg.Unit(unit):
+            note({"level": None, "action": "changed", "reason": f"{vname}: {da.attrs['units']} converted to {unit}"})
+        return conv
+
+    t = get("temperature", "degC")
+    bad_t = (t < T_RANGE[0]) | (t > T_RANGE[1])
+    t = t.where(~bad_t)
+    note({"level": None, "action": "removed", "reason": f"temperatures outside {T_RANGE[0]:.0f}..{T_RANGE[1]:.0f} "
+          "degC are set missing", "variable": "temperature", **_count(bad_t)})
+    tk = t + thermo.T0
+    rh = None
+    if names["relative_humidity"]:
+        vname = names["relative_humidity"]
+        u = _unit(ds[vname].attrs.get("units", ""), vname, src) if "units" in ds[vname].attrs else None
+        if u is None:
+            raise SoundingFormatError(f"variable {vname!r} has no units attribute (percent or 1?)", file=src)
+        if u == ureg.Unit("dimensionless"):
+            rh = ds[vname] * 100.0
+            note({"level": None, "action": "changed", "reason": f"{vname}: relative humidity as a fraction "
+                  "converted to percent"})
+        else:
+            rh = _convert(ds[vname], "percent", vname, src)
+        too_high = rh > RH_MAX
+        capped = (rh > 100.0) & ~too_high
+        rh = rh.where(~too_high).clip(min=0.0, max=100.0)
+        note({"level": None, "action": "removed", "reason": f"relative humidity above {RH_MAX:.0f} % set missing",
+              "variable": "relative_humidity", **_count(too_high)})
+        note({"level": None, "action": "changed", "reason": "relative humidity 100-105 % set to 100 %",
+              "variable": "relative_humidity", **_count(capped)})
+    if names["dewpoint"]:
+        td = get("dewpoint", "degC")
+        td = xr.where(td > t, t, td.where(td <= t + 1.0))
+        note({"level": None, "action": "changed", "reason": "dewpoints above temperature by up to 1 degC set equal, "
+              "by more set missing", "variable": "dewpoint"})
+    elif rh is not None:
+        td = _elementwise(lambda tk_, rh_: thermo.dewpoint_from_relative_humidity(
+            tk_, np.maximum(rh_, 0.1) / 100.0) - thermo.T0, tk, rh)
+        note({"level": None, "action": "filled", "reason": "dewpoint derived from relative humidity (Murphy and "
+              "Koop 2005)", "variable": "dewpoint"})
+    else:
+        q = get("specific_humidity", "kg/kg")
+        # vapour pressure from specific humidity: e = q p / (eps + (1 - eps) q)
+        e = q.clip(min=1e-8) * p_pa / (thermo.EPSILON + (1.0 - thermo.EPSILON) * q.clip(min=1e-8))
+        td = _elementwise(lambda e_, tk_: np.minimum(thermo.dewpoint_from_vapor_pressure(e_), tk_) - thermo.T0,
+                          e, tk)
+        note({"level": None, "action": "filled", "reason": "dewpoint derived from specific humidity",
+              "variable": "dewpoint"})
+    td = td.where(t.notnull())
+    if rh is None:
+        rh = _elementwise(lambda tk_, td_: 100.0 * thermo.relative_humidity_water(tk_, td_ + thermo.T0), tk, td)
+    if names["geopotential_height"]:
+        z = get("geopotential_height", "m")
+    elif names["geopotential"]:
+        vname = names["geopotential"]
+        z = _convert(ds[vname], "m^2/s^2", vname, src) / thermo.G0
+        note({"level": None, "action": "changed", "reason": f"{vname}: geopotential divided by standard gravity "
+              "(9.80665 m/s2) to geopotential height", "variable": "height"})
+    else:
+        z = xr.apply_ufunc(_hypsometric, p_pa, tk, td + thermo.T0, input_core_dims=[["level"]] * 3,
+                           output_core_dims=[["level"]], dask="parallelized", output_dtypes=[float])
+        note({"level": None, "action": "filled", "reason": "no geopotential: heights by the hypsometric equation "
+              "anchored at the standard-atmosphere height of the lowest level", "variable": "height"})
+    data = {"pressure": pressure, "temperature": t, "dewpoint": td, "relative_humidity": rh, "height": z}
+    if names["cloud_liquid_concentration"]:
+        data["cloud_liquid"] = get("cloud_liquid_concentration", "g/m^3")
+    elif names["cloud_liquid_fraction"]:
+        ql = get("cloud_liquid_fraction", "kg/kg")
+        data["cloud_liquid"] = ql * p_pa / (thermo.RD * tk) * 1000.0
+        note({"level": None, "action": "changed", "reason": "cloud liquid mass fraction times dry-air density "
+              "p/(Rd T) to g/m3 (virtual-temperature effect, under 1 %, neglected)", "variable": "cloud_liquid"})
+    if names["eastward_wind"] and names["northward_wind"]:
+        u = get("eastward_wind", "m/s")
+        v = get("northward_wind", "m/s")
+        data["wind_speed"] = np.hypot(u, v)
+        data["wind_direction"] = (np.degrees(np.arctan2(-u, -v)) % 360.0)
+    if names["surface_pressure"]:
+        ps = get("surface_pressure", "hPa")
+        below = pressure > ps
+        for k in list(data):
+            if k != "pressure":
+                data[k] = data[k].where(~below)
+        note({"level": None, "action": "removed", "reason": "levels below the ground (pressure above the surface "
+              "pressure) set missing", **_count(below)})
+    out = xr.Dataset(coords=coords)
+    for k, da in data.items():
+        unit, std, long = VARIABLES[k]
+        attrs = {"units": unit, "long_name": long}
+        if std:
+            attrs["standard_name"] = std
+        if k != "pressure":
+            da = da.transpose("time", "latitude", "longitude", "level")
+        out[k] = da.assign_attrs(attrs)
+    out["latitude"].attrs.update(units="degrees_north", standard_name="latitude")
+    out["longitude"].attrs.update(units="degrees_east", standard_name="longitude")
+    return out
+
+
+def _count(mask):
+    """How many values a rule changed; only counted when the data are in memory (lazy data: not computed)."""
+    if mask.chunks is None:
+        return {"count": int(mask.sum())}
+    return {}
+
+
+def _elementwise(func, *args):
+    return xr.apply_ufunc(func, *args, dask="parallelized", output_dtypes=[float])
+
+
+def _hypsometric(p, tk, tdk):
+    lowest = np.take(p, [0], axis=-1)[..., 0]
+    anchor = thermo.standard_atmosphere_height(np.broadcast_to(lowest, tk.shape[:-1]))
+    return thermo.hypsometric_heights(np.broadcast_to(p, tk.shape), tk, tdk, anchor_height=anchor)
