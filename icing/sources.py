@@ -60,20 +60,25 @@ class SoundingSource:
                  **diagnose_options):
         from .diagnose import diagnose
 
+        self.notes = []
         if isinstance(profiles, xr.Dataset) and "profile" in profiles.dims:
             stacked = profiles
         else:
             profiles = list(profiles) if not isinstance(profiles, xr.Dataset) else [profiles]
             if not profiles:
                 raise IcingError("no soundings given")
+            profiles = self._unique(profiles)
             stacked = stack_profiles(profiles)
         lat = stacked["latitude"].values.astype(float)
         lon = stacked["longitude"].values.astype(float)
         times = stacked["time"].values.astype("datetime64[s]")
-        bad = [str(s) for s, a, b, t in zip(stacked["station"].values, lat, lon, times, strict=True)
+        bad = [f"{s} ({src})" for s, src, a, b, t in zip(stacked["station"].values, stacked["source"].values, lat, lon,
+                                                       times, strict=True)
                if not (np.isfinite(a) and np.isfinite(b)) or np.isnat(t)]
         if bad:
-            raise IcingError(f"soundings without position or time cannot be matched to a route: {', '.join(bad)}")
+            raise IcingError("soundings without a position or a full valid time cannot be matched to a route: "
+                             f"{', '.join(bad[:5])}{' ...' if len(bad) > 5 else ''} (a station table gives "
+                             "positions; TEMP reports carry only day and hour, so give the month)")
         self.profiles = stacked
         self.max_distance_m = float(max_distance_km) * 1000.0
         self.max_age_s = float(max_age_hours) * 3600.0
@@ -87,6 +92,19 @@ class SoundingSource:
         self.labels = np.array([f"{s} {str(t)[:13].replace('T', ' ')}Z" for s, t in zip(self.station, times,
                                                                                           strict=True)])
         self._prepare_columns()
+
+    def _unique(self, profiles):
+        """Keep one profile per station and valid time (the same ascent read from two files or formats)."""
+        seen, out = {}, []
+        for p in profiles:
+            key = (str(p.attrs.get("station", "")), str(p.attrs.get("time", "")))
+            if key[0] and key[1] and key in seen:
+                self.notes.append(f"{p.attrs.get('source', '?')}: station {key[0]} at {key[1]} already read from "
+                                  f"{seen[key]}; the duplicate is not used")
+                continue
+            seen[key] = p.attrs.get("source", "?")
+            out.append(p)
+        return out
 
     def _prepare_columns(self):
         d = self.diagnostics

@@ -131,7 +131,7 @@ def test_alternatives_offer_a_better_altitude(source):
 def test_demo_scenario():
     """The demo: ice where the scenario puts supercooled cloud (climb out of Aldren Point through the deep deck),
     freezing rain possible near Brannock, the dry Dunmarrow leg cleaner, data gaps flagged."""
-    res = assess_route(SAMPLES / "demo_route.csv", [SAMPLES], "turboprop")
+    res = assess_route(SAMPLES / "demo_route.csv", sorted(SAMPLES.glob("S?_*.csv")), "turboprop")
     seg = res.segments
     assert seg.loc[0, "icing_minutes"] > 5 and seg.loc[0, "intensity"] not in ("none", "unknown")
     assert (seg["large_drops"] == "rain").any()
