@@ -18,8 +18,8 @@ import pandas as pd
 from . import CAUTION, thermo
 from .units import FT, NMI
 
-__all__ = ["assess_route", "assess_routes", "Assessment", "SEGMENT_COLUMNS", "INTENSITIES", "ICE_TYPES",
-           "LARGE_DROPS", "DATA_STATUS"]
+__all__ = ["assess_route", "assess_routes", "atmosphere_source", "Assessment", "SEGMENT_COLUMNS", "INTENSITIES",
+           "ICE_TYPES", "LARGE_DROPS", "DATA_STATUS"]
 
 INTENSITIES = ("none", "trace", "light", "moderate", "severe")
 ICE_TYPES = ("none", "rime", "mixed", "glaze")
@@ -57,7 +57,7 @@ class Assessment:
         return json.dumps(self.to_dict(), indent=kw.pop("indent", 2), **kw)
 
 
-def _source_of(soundings, **options):
+def atmosphere_source(soundings, **options):
     """An atmosphere source from a source, a list of profiles, or paths/directories of sounding files."""
     if hasattr(soundings, "sample"):
         return soundings
@@ -92,8 +92,9 @@ def _read_paths(item):
             try:
                 out.extend(read_profiles(f))
             except SoundingFormatError as exc:
-                if "not a known sounding format" in exc.reason:
-                    continue  # e.g. a station table beside the soundings
+                # A station table or a model grid beside the soundings is not one of them; anything else is.
+                if "not a known sounding format" in exc.reason or "gridded model fields" in exc.reason:
+                    continue
                 raise
         return out
     return read_profiles(p)
@@ -172,7 +173,7 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
     from .route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_arrays, wind_points
 
     ac = get_aircraft(aircraft)
-    source = _source_of(soundings, **options)
+    source = atmosphere_source(soundings, **options)
     transition = options.get("transition_ft", DEFAULT_TRANSITION_FT)
     rts = [r if isinstance(r, Route) else read_route(r, departure=departure) for r in routes]
     geos = [plan_geometry(r, ac, transition) for r in rts]

@@ -21,6 +21,7 @@ EXAMPLES = {
     "layers": "examples:\n  icing layers sample_soundings/S1_00101_2026011500.csv",
     "inspect": "examples:\n  icing inspect sample_soundings/S5_00105_2026011500.csv",
     "aircraft": "examples:\n  icing aircraft",
+    "grid": "examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out grid.nc",
     "plot": "examples:\n  icing plot sample_soundings/S1_00101_2026011500.csv --out s1.png\n"
             "  icing plot sample_soundings/S2_00102_2026011500.csv --out s2.svg --cold-limit -30\n"
             "  icing plot sample_soundings/S1_00101_2026011500.csv > s1.png",
@@ -110,11 +111,15 @@ def build_parser() -> argparse.ArgumentParser:
     sp = sub.add_parser("screen", help="screen a route against soundings", epilog=EXAMPLES["screen"],
                         formatter_class=argparse.RawDescriptionHelpFormatter)
     sp.add_argument("route", help="route CSV (name,latitude,longitude,altitude[,speed_kt][,time]) or GeoJSON")
-    sp.add_argument("--soundings", nargs="+", required=True, metavar="FILE_OR_DIR")
+    what = sp.add_mutually_exclusive_group(required=True)
+    what.add_argument("--soundings", nargs="+", metavar="FILE_OR_DIR", help="sounding files or directories")
+    what.add_argument("--model", metavar="FIELDS", help="a model grid on pressure levels (netCDF) instead")
     _add_screen_options(sp)
     dp = sub.add_parser("demo", help="screen the bundled demo route against the demo soundings",
                         epilog=EXAMPLES["demo"], formatter_class=argparse.RawDescriptionHelpFormatter)
     _add_screen_options(dp)
+    dp.add_argument("--model", action="store_const", const="demo", help="screen against the demo model grid "
+                    "instead of the demo soundings")
     lp = sub.add_parser("layers", help="supercooled-liquid layers of soundings", epilog=EXAMPLES["layers"],
                         formatter_class=argparse.RawDescriptionHelpFormatter)
     lp.add_argument("soundings", nargs="+")
@@ -133,20 +138,27 @@ def build_parser() -> argparse.ArgumentParser:
     pp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
     pp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
     pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data)")
+    from .grid import add_grid_parser
+
+    add_grid_parser(sub)
     return parser
 
 
 def _screen(args, route, soundings):
     from .aircraft import get_aircraft
-    from .assess import _source_of as atmosphere_source  # (to be made public in icing.assess)
-    from .assess import assess_route
+    from .assess import assess_route, atmosphere_source
 
     progress = Progress(4 if args.out else 2)
     try:
         ac = get_aircraft(args.aircraft, **_overrides(args.set))
         progress.step("reading and diagnosing soundings")
-        source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
-                                   cold_limit=args.cold_limit, airmass=args.airmass)
+        if getattr(args, "model", None):
+            from .gridsource import GridSource
+
+            source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
+        else:
+            source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
+                                       cold_limit=args.cold_limit, airmass=args.airmass)
         progress.step("screening the route")
         result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
         fmt = "json" if args.json else args.format
@@ -263,6 +275,8 @@ def main(argv=None) -> int:
             return _screen(args, args.route, args.soundings)
         if args.command == "demo":
             d = sample_dir()
+            if args.model:
+                args.model = d / "model" / "demo_model.nc"
             return _screen(args, d / "demo_route.csv", sorted(d.glob("S?_*.csv")))
         if args.command == "layers":
             return _layers(args)
@@ -272,6 +286,10 @@ def main(argv=None) -> int:
             return _aircraft(args)
         if args.command == "plot":
             return _plot(args)
+        if args.command == "grid":
+            from .grid import grid_main
+
+            return grid_main(args)
         parser.error("give a command: screen, demo, layers, plot, inspect or aircraft")
     except IcingError as exc:
         print(f"icing: error: {exc}", file=sys.stderr)

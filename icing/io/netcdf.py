@@ -138,6 +138,10 @@ def _read_cf(ds, path):
         if need not in found:
             raise SoundingFormatError(f"no variable with standard_name "
                                       f"{'air_pressure' if need == 'pressure' else 'air_temperature'}", file=path)
+    tdims = {str(d).lower() for d in ds[found["temperature"]].dims}
+    if ds.attrs.get("icing_model") or ({"lat", "latitude", "y"} & tdims and {"lon", "longitude", "x"} & tdims):
+        raise SoundingFormatError("gridded model fields, not a sounding: read them with icing.io.model.read_model "
+                                  "or screen with icing.gridsource.GridSource (icing screen --model)", file=path)
     zdim = ds[found["temperature"]].dims[-1] if ds[found["temperature"]].ndim else None
     if zdim is None:
         raise SoundingFormatError("air_temperature has no vertical dimension", file=path)
