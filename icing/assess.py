@@ -51,10 +51,12 @@ class Assessment:
         for c in ("start_time", "end_time"):
             seg[c] = seg[c].astype(str)
         records = json.loads(seg.to_json(orient="records", double_precision=6))
-        return {"caution": self.caution, "summary": self.summary, "segments": records}
+        summary = {k: (None if isinstance(v, float) and np.isnan(v) else v) for k, v in self.summary.items()}
+        return {"caution": self.caution, "summary": summary, "segments": records}
 
     def to_json(self, **kw) -> str:
-        return json.dumps(self.to_dict(), indent=kw.pop("indent", 2), **kw)
+        """The result as JSON (RFC 8259: unknown numbers are null, never NaN)."""
+        return json.dumps(self.to_dict(), indent=kw.pop("indent", 2), allow_nan=False, **kw)
 
 
 def atmosphere_source(soundings, **options):

@@ -263,8 +263,9 @@ def plan_geometry(route: Route, aircraft, transition_ft: float = DEFAULT_TRANSIT
             fl = np.ones(s_mid.size, dtype=bool)
         elif not a.flight_level and not b.flight_level:
             fl = np.zeros(s_mid.size, dtype=bool)
-        else:
-            fl = alt >= transition_ft
+        else:  # flown at the flight level while level at it, and at or above the transition altitude
+            fl_alt = a.altitude_ft if a.flight_level else b.altitude_ft
+            fl = (alt >= transition_ft) | (np.abs(alt - fl_alt) < 1.0)
         fixed = None
         if a.time is not None and b.time is not None:
             total = (b.time - a.time).total_seconds()
