@@ -35,6 +35,7 @@ QC_FLAGS = {"height_filled": 1, "dewpoint_derived": 2, "value_changed": 4, "valu
 T_RANGE = (-100.0, 60.0)  # degC, plausible tropospheric and lower-stratospheric air
 RH_MAX = 105.0  # percent: above this a humidity value is taken as an error rather than supersaturation
 DEWPOINT_CLIP = 1.0  # degC: dewpoint above temperature by at most this is rounding, clipped to T
+TD_MIN = -150.0  # degC: a dewpoint below this is a coding error (radiosondes report depressions up to ~50 K)
 
 
 def check_temperature_unit(values, unit: str, name="temperature", file=None, line=None, column=None):
@@ -133,83 +134,86 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
             entry["line"] = int(src_lines[i])
         log.append(entry)
 
-    keep = np.ones(n, dtype=bool)
-    for i in range(n):
-        pi = data["pressure"][i]
-        if not np.isfinite(pi) or pi <= 0.0:
-            record(i, "dropped", "pressure missing or not positive")
-            keep[i] = False
-            continue
-        t = data["temperature"][i]
-        if np.isfinite(t) and not T_RANGE[0] <= t <= T_RANGE[1]:
-            record(i, "removed", f"temperature {t:.1f} degC outside {T_RANGE[0]:.0f}..{T_RANGE[1]:.0f}",
-                   "temperature")
-            data["temperature"][i] = np.nan
-            flags[i] |= QC_FLAGS["value_removed"]
-        rh = data["relative_humidity"][i]
-        if np.isfinite(rh) and not 0.0 <= rh <= RH_MAX:
-            record(i, "removed", f"relative humidity {rh:.1f} % outside 0..{RH_MAX:.0f}", "relative_humidity")
-            data["relative_humidity"][i] = np.nan
-            flags[i] |= QC_FLAGS["value_removed"]
-        elif np.isfinite(rh) and rh > 100.0:
-            record(i, "changed", f"relative humidity {rh:.1f} % set to 100", "relative_humidity")
-            data["relative_humidity"][i] = 100.0
-            flags[i] |= QC_FLAGS["value_changed"]
-        td, t = data["dewpoint"][i], data["temperature"][i]
-        if np.isfinite(td) and np.isfinite(t) and td > t:
-            if td - t <= DEWPOINT_CLIP:
-                record(i, "changed", f"dewpoint {td:.1f} above temperature {t:.1f} degC, set equal", "dewpoint")
-                data["dewpoint"][i] = t
-                flags[i] |= QC_FLAGS["value_changed"]
-            else:
-                record(i, "removed", f"dewpoint {td:.1f} above temperature {t:.1f} degC", "dewpoint")
-                data["dewpoint"][i] = np.nan
-                flags[i] |= QC_FLAGS["value_removed"]
+    # Range checks, vectorised; only the levels that fail are visited, to record them.
+    pres = data["pressure"]
+    keep = np.isfinite(pres) & (pres > 0.0)
+    for i in np.flatnonzero(~keep):
+        record(i, "dropped", "pressure missing or not positive")
+
+    def remove(name, bad, why):
+        for i in np.flatnonzero(bad & keep):
+            record(i, "removed", why(data[name][i]), name)
+        data[name][bad] = np.nan
+        flags[bad] |= QC_FLAGS["value_removed"]
+
+    with np.errstate(invalid="ignore"):
+        t = data["temperature"]
+        remove("temperature", np.isfinite(t) & ((t < T_RANGE[0]) | (t > T_RANGE[1])),
+               lambda v: f"temperature {v:.1f} degC outside {T_RANGE[0]:.0f}..{T_RANGE[1]:.0f}")
+        td = data["dewpoint"]
+        remove("dewpoint", np.isfinite(td) & ((td < TD_MIN) | (td > T_RANGE[1])),
+               lambda v: f"dewpoint {v:.1f} degC outside {TD_MIN:.0f}..{T_RANGE[1]:.0f}")
+        rh = data["relative_humidity"]
+        remove("relative_humidity", np.isfinite(rh) & ((rh < 0.0) | (rh > RH_MAX)),
+               lambda v: f"relative humidity {v:.1f} % outside 0..{RH_MAX:.0f}")
+        high = (rh > 100.0) & keep
+        for i in np.flatnonzero(high):
+            record(i, "changed", f"relative humidity {rh[i]:.1f} % set to 100", "relative_humidity")
+        rh[high] = 100.0
+        flags[high] |= QC_FLAGS["value_changed"]
+        t, td = data["temperature"], data["dewpoint"]
+        excess = td - t
+        clip = (excess > 0) & (excess <= DEWPOINT_CLIP) & keep
+        for i in np.flatnonzero(clip):
+            record(i, "changed", f"dewpoint {td[i]:.1f} above temperature {t[i]:.1f} degC, set equal", "dewpoint")
+        td[clip] = t[clip]
+        flags[clip] |= QC_FLAGS["value_changed"]
+        far = excess > DEWPOINT_CLIP
+        for i in np.flatnonzero(far & keep):
+            record(i, "removed", f"dewpoint {td[i]:.1f} above temperature {t[i]:.1f} degC", "dewpoint")
+        td[far] = np.nan
+        flags[far] |= QC_FLAGS["value_removed"]
         for name, (lo, hi) in {"wind_speed": (0.0, 150.0), "wind_direction": (0.0, 360.0),
                                "cloud_liquid": (0.0, 10.0)}.items():
-            v = data[name][i]
-            if np.isfinite(v) and not lo <= v <= hi:
-                record(i, "removed", f"{name} {v:g} outside {lo:g}..{hi:g}", name)
-                data[name][i] = np.nan
-                flags[i] |= QC_FLAGS["value_removed"]
-        if not any(np.isfinite(data[k][i]) for k in given):
-            record(i, "dropped", "no usable value at this level")
-            keep[i] = False
+            v = data[name]
+            remove(name, np.isfinite(v) & ((v < lo) | (v > hi)), lambda x, name=name, lo=lo, hi=hi:
+                   f"{name} {x:g} outside {lo:g}..{hi:g}")
+    empty = keep & ~np.any([np.isfinite(data[k]) for k in given], axis=0)
+    for i in np.flatnonzero(empty):
+        record(i, "dropped", "no usable value at this level")
+    keep &= ~empty
 
     idx = np.flatnonzero(keep)
     idx = idx[np.argsort(-data["pressure"][idx], kind="stable")]
-    if np.any(np.diff(np.flatnonzero(keep)) < 0) or not np.array_equal(idx, np.flatnonzero(keep)):
+    if not np.array_equal(idx, np.flatnonzero(keep)):
         log.append({"level": None, "action": "reordered", "reason": "levels sorted by decreasing pressure"})
-    # Merge levels that share a pressure: the mean of the finite values of each variable (independent of the
-    # input order); values that disagree are recorded.
-    groups = []
-    for i in idx:
-        if groups and abs(data["pressure"][groups[-1][0]] - data["pressure"][i]) < 1e-6:
-            groups[-1].append(i)
-        else:
-            groups.append([i])
-    cols = {k: [] for k in data}
-    out_flags, out_lines = [], []
-    for g in groups:
-        f = 0
+    # Levels that share a pressure become one. Values that agree are kept; values that conflict cannot be
+    # resolved without inventing one (a mean is not in the report) or depending on the input order, so the
+    # value is removed and the conflict recorded: the level then reads as unknown for that variable.
+    ps = data["pressure"][idx]
+    first = np.concatenate([[True], np.abs(np.diff(ps)) >= 1e-6]) if idx.size else np.zeros(0, bool)
+    starts = np.flatnonzero(first)
+    cols = {k: data[k][idx[starts]].copy() for k in data}
+    out_flags = flags[idx[starts]].copy()
+    out_lines = src_lines[idx[starts]].copy()
+    sizes = np.diff(np.concatenate([starts, [idx.size]]))
+    for gi in np.flatnonzero(sizes > 1):  # only duplicated pressures are visited
+        g = idx[starts[gi]:starts[gi] + sizes[gi]]
         for k in data:
             vals = data[k][g]
             fin = vals[np.isfinite(vals)]
-            if fin.size and k == "wind_direction":  # a circular mean: 350 and 10 average to 0, not 180
-                r = np.radians(fin)
-                mean = float(np.degrees(np.arctan2(np.sin(r).mean(), np.cos(r).mean())) % 360.0)
+            if k == "pressure" or fin.size == 0:
+                continue
+            if np.ptp(fin) > 1e-6:
+                record(g[0], "removed", f"duplicate level: conflicting {k} values "
+                       f"{', '.join(f'{v:g}' for v in np.sort(fin))}; none kept", k)
+                cols[k][gi] = np.nan
+                out_flags[gi] |= QC_FLAGS["value_removed"]
             else:
-                mean = fin.mean() if fin.size else np.nan
-            cols[k].append(mean)
-            if k != "pressure" and fin.size > 1 and np.ptp(fin) > 1e-6:
-                record(g[0], "merged", f"duplicate level: {k} values {', '.join(f'{v:g}' for v in fin)}; kept "
-                       f"their mean {mean:g}", k)
-        if len(g) > 1:
-            for j in g[1:]:
-                record(j, "merged", f"duplicate of the level at {data['pressure'][g[0]]:g} hPa")
-            f |= QC_FLAGS["merged"]
-        out_flags.append(f | int(np.bitwise_or.reduce(flags[g])))
-        out_lines.append(int(src_lines[g[0]]))
+                cols[k][gi] = fin[0]
+        for j in g[1:]:
+            record(j, "merged", f"duplicate of the level at {data['pressure'][g[0]]:g} hPa")
+        out_flags[gi] |= QC_FLAGS["merged"] | int(np.bitwise_or.reduce(flags[g]))
     d = {k: np.asarray(v, dtype=float) for k, v in cols.items()}
     fl = np.asarray(out_flags, dtype=np.int32)
     ln = np.asarray(out_lines)
