@@ -60,29 +60,52 @@ class Assessment:
 
 
 def atmosphere_source(soundings, **options):
-    """An atmosphere source from a source, a list of profiles, or paths/directories of sounding files."""
+    """An atmosphere source from a source, a list of profiles, or paths/directories of sounding files.
+
+    Options: ``max_distance_km``, ``max_age_hours``, ``max_stations``, ``cold_limit``, ``airmass`` (matching and
+    diagnosis), and for readers that need them ``stations`` (a station table: positions for TEMP reports) and
+    ``reference_time`` (the month and year of TEMP reports, which carry only day and hour).
+    """
     if hasattr(soundings, "sample"):
         return soundings
     from .sources import SoundingSource
 
     if isinstance(soundings, str) or hasattr(soundings, "__fspath__") or hasattr(soundings, "attrs"):
         soundings = [soundings]
+    read_opts = {k: options[k] for k in ("stations", "reference_time") if options.get(k) is not None}
     profiles = []
     for item in soundings:
         if isinstance(item, str) or hasattr(item, "__fspath__"):
-            profiles.extend(_read_paths(item))
+            profiles.extend(_read_paths(item, read_opts))
         else:
             profiles.append(item)
     keys = {"max_distance_km", "max_age_hours", "max_stations", "cold_limit", "airmass"}
     return SoundingSource(profiles, **{k: v for k, v in options.items() if k in keys})
 
 
-def _read_paths(item):
+def _read_one(path, read_opts):
+    """Every profile of one file, giving its reader only the options it takes."""
+    import inspect
+
+    from .io import reader_for
+
+    mod = reader_for(path)
+    params = inspect.signature(mod.read).parameters
+    opts = {k: v for k, v in read_opts.items() if k in params}
+    profiles = mod.read(path, **opts)
+    if not profiles:
+        from .errors import SoundingFormatError
+
+        raise SoundingFormatError("no profile found in the file", file=path)
+    return profiles
+
+
+def _read_paths(item, read_opts=None):
     from pathlib import Path
 
     from .errors import SoundingFormatError
-    from .io import read_profiles
 
+    read_opts = read_opts or {}
     p = Path(item)
     if p.is_dir():
         files = sorted(f for f in p.iterdir() if f.is_file() and not f.name.startswith(".")
@@ -92,14 +115,14 @@ def _read_paths(item):
         out = []
         for f in files:
             try:
-                out.extend(read_profiles(f))
+                out.extend(_read_one(f, read_opts))
             except SoundingFormatError as exc:
                 # A station table or a model grid beside the soundings is not one of them; anything else is.
                 if "not a known sounding format" in exc.reason or "gridded model fields" in exc.reason:
                     continue
                 raise
         return out
-    return read_profiles(p)
+    return _read_one(p, read_opts)
 
 
 def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
@@ -156,7 +179,7 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
         Ground speed from true airspeed plus the sounding winds where known.
     options :
         ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass``
-        (diagnosis), ``transition_ft``.
+        (diagnosis), ``stations`` and ``reference_time`` (TEMP reports), ``transition_ft``.
 
     Returns
     -------

@@ -97,6 +97,10 @@ def _add_screen_options(sp):
     sp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
     sp.add_argument("--airmass", choices=["continental", "marine"], default="continental",
                     help="droplet number concentration assumed for MVD (default continental)")
+    sp.add_argument("--stations", metavar="CSV", help="station table (station,name,latitude,longitude,"
+                    "elevation_m) for reports without positions, such as TEMP")
+    sp.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
+                    "and hour (for example 2026-01-15)")
     sp.add_argument("--json", action="store_true", help="the full result as JSON (same as --format json)")
     sp.add_argument("--format", choices=["table", "json", "csv", "geojson"], default="table")
     sp.add_argument("--out", metavar="DIR", help="write the report files (CSV, JSON, GeoJSON, HTML) to DIR")
@@ -158,7 +162,8 @@ def _screen(args, route, soundings):
             source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
         else:
             source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
-                                       cold_limit=args.cold_limit, airmass=args.airmass)
+                                       cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
+                                       reference_time=args.reference_time)
         progress.step("screening the route")
         result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
         fmt = "json" if args.json else args.format

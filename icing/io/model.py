@@ -33,6 +33,7 @@ the surface pressure, where a surface pressure is given) set missing. Missing st
 
 from __future__ import annotations
 
+import importlib
 import re
 from pathlib import Path
 
@@ -102,7 +103,9 @@ def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
     is_grib = sniff_grib(head) or engine == "cfgrib"
     if is_grib:
         try:
-            import cfgrib  # noqa: F401
+            # eccodes (under cfgrib) crashes the interpreter if it is loaded before pyproj: load pyproj first.
+            importlib.import_module("pyproj")
+            importlib.import_module("cfgrib")
         except ImportError:
             raise SoundingFormatError("reading GRIB2 needs the optional cfgrib package (pip install "
                                       "'icing[grib]')", file=path) from None
