@@ -260,6 +260,7 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         alts = _view(alternatives, a * n_opt, b * n_opt)
         smp = _view(samples, bounds[i], bounds[i + 1])
         summary = _summary(r, ac, {k: v[a:b] for k, v in cols.items()}, step_s)
+        summary["alternative_offsets_ft"] = [float(o) for o in offsets_ft]
         out.append(Assessment(segments=seg, summary=summary, samples=smp, alternatives=alts))
     return out
 

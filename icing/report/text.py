@@ -20,19 +20,24 @@ def _alt(lo, hi):
     return f"{lo:,.0f}-{hi:,.0f}"
 
 
+def _intensity(word, data):
+    shown = word.upper() if word in ("moderate", "severe") else word
+    return shown + "*" if data == "partial" and word != "unknown" else shown
+
+
 def segment_table(assessment) -> str:
     """A fixed-width table, one line a segment, then the summary and the caution."""
     seg = assessment.segments
     s = assessment.summary
     head = ["#", "from", "to", "start UTC", "nm", "altitude ft", "icing min", "max mm/h", "ice mm", "intensity",
-            "type", "large drops", "data", "best alt ft"]
+            "type", "large drops", "data", "best alt ft", "best mm"]
     rows = []
     for r in seg.itertuples():
         rows.append([str(r.segment), r.start, r.end, r.start_time[11:16], _num(r.distance_nm, "{:.0f}"),
                      _alt(r.altitude_ft_min, r.altitude_ft_max), _num(r.icing_minutes, "{:.0f}"),
-                     _num(r.max_rate_mm_per_h), _num(r.accretion_mm), r.intensity.upper() if r.intensity in
-                     ("moderate", "severe") else r.intensity, r.ice_type, r.large_drops, r.data,
-                     _num(r.best_altitude_ft, "{:,.0f}")])
+                     _num(r.max_rate_mm_per_h), _num(r.accretion_mm), _intensity(r.intensity, r.data),
+                     r.ice_type, r.large_drops, r.data, _num(r.best_altitude_ft, "{:,.0f}"),
+                     _num(r.best_accretion_mm)])
     widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h) for i, h in enumerate(head)]
     wrap = "\n".join(textwrap.wrap(CAUTION, 100))
     out = [wrap, "", f"Route {s['route']}  departure {s['departure']}  aircraft {s['aircraft']} "
@@ -46,12 +51,20 @@ def segment_table(assessment) -> str:
                f"on the reference body; worst: "
                + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
                   s["worst_intensity"]) + ".")
-    if not math.isnan(s.get("best_altitude_plan_accretion_mm", math.nan)):
-        out.append(f"Best altitude per segment (within the offsets tried) would give "
-                   f"{s['best_altitude_plan_accretion_mm']:.1f} mm.")
+    best = s.get("best_altitude_plan_accretion_mm")
+    offs = s.get("alternative_offsets_ft") or [0.0]
+    span = f"{min(offs):+,.0f} to {max(offs):+,.0f} ft"
+    if best is not None and not math.isnan(best):
+        out.append(f"Flying each segment at its best altitude (of the offsets tried, {span}) would give "
+                   f"{best:.1f} mm.")
+    else:
+        out.append(f"Best altitudes: 'best alt ft' and 'best mm' give, per segment, the offset ({span}) "
+                   "with the least ice and complete data ('-' where none has complete data).")
     if s["segments_missing_data"] or s["segments_partial_data"]:
         out.append(f"DATA GAPS: {s['segments_missing_data']} segment(s) without data and "
-                   f"{s['segments_partial_data']} with partial data: icing there is UNKNOWN, not absent.")
+                   f"{s['segments_partial_data']} with partial data: icing there is UNKNOWN, not absent; "
+                   "* marks an intensity found in the part with data (at least that). 'icing inspect' shows "
+                   "what the quality checks removed from each sounding.")
     if (seg["large_drops"] != "none").any():
         out.append("Supercooled large drops possible (freezing drizzle or rain): beyond what the droplet-size "
                    "model above covers; see the large drops column.")
