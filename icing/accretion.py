@@ -436,6 +436,14 @@ def _si(value, unit, name):
     return _to_si(value, unit, name=name)
 
 
+def _core_from_quantities(liquid_water_content, droplet_diameter, airspeed, body_diameter, temperature, pressure):
+    """:func:`accretion_core` on Quantities: each argument converted once to SI, its name in any unit error."""
+    return accretion_core(_si(liquid_water_content, "kg/m^3", "liquid_water_content"),
+                          _si(droplet_diameter, "m", "droplet_diameter"), _si(airspeed, "m/s", "airspeed"),
+                          _si(temperature, "K", "temperature"), _si(pressure, "Pa", "pressure"),
+                          _si(body_diameter, "m", "body_diameter"))
+
+
 def collision_efficiency(droplet_diameter, airspeed, body_diameter, temperature, pressure, distribution="mvd"):
     """Overall collision efficiency (alpha1, dimensionless Quantity) of drops on a cylinder.
 
@@ -481,13 +489,8 @@ def freezing_fraction(liquid_water_content, droplet_diameter, airspeed, body_dia
         Dimensionless Quantity (0-1; 1 is dry growth), Quantity in K, and a bool array (True: wet growth,
         surface at 0 deg C).
     """
-    w = _si(liquid_water_content, "kg/m^3", "liquid_water_content")
-    d = _si(droplet_diameter, "m", "droplet_diameter")
-    v = _si(airspeed, "m/s", "airspeed")
-    dd = _si(body_diameter, "m", "body_diameter")
-    t = _si(temperature, "K", "temperature")
-    p = _si(pressure, "Pa", "pressure")
-    r = accretion_core(w, d, v, t, p, dd)
+    r = _core_from_quantities(liquid_water_content, droplet_diameter, airspeed, body_diameter, temperature,
+                              pressure)
     return (ureg.Quantity(r["freezing_fraction"], "dimensionless"), ureg.Quantity(r["surface_temperature"], "K"),
             r["wet_growth"])
 
@@ -530,13 +533,8 @@ def accretion_rate(liquid_water_content, droplet_diameter, airspeed, body_diamet
         Quantities in kg/(m s) and m/s. NaN where an input is unknown; zero where LWC is zero or the air is
         at or above 0 deg C.
     """
-    w = _si(liquid_water_content, "kg/m^3", "liquid_water_content")
-    d = _si(droplet_diameter, "m", "droplet_diameter")
-    v = _si(airspeed, "m/s", "airspeed")
-    dd = _si(body_diameter, "m", "body_diameter")
-    t = _si(temperature, "K", "temperature")
-    p = _si(pressure, "Pa", "pressure")
-    r = accretion_core(w, d, v, t, p, dd)
+    r = _core_from_quantities(liquid_water_content, droplet_diameter, airspeed, body_diameter, temperature,
+                              pressure)
     return ureg.Quantity(r["mass_rate"], "kg/(m*s)"), ureg.Quantity(r["thickness_rate"], "m/s")
 
 

@@ -165,12 +165,10 @@ class GridSource:
     def sample(self, latitude, longitude, time, pressure=None, height=None):
         """Diagnostics at sample points: the same arguments and output keys as
         :meth:`icing.sources.SoundingSource.sample`, with ``used`` of shape (samples, model times)."""
-        lat = np.atleast_1d(np.asarray(latitude, dtype=float))
-        lon = np.atleast_1d(np.asarray(longitude, dtype=float))
-        ts = np.atleast_1d(np.asarray(time, dtype="datetime64[s]")).astype(np.int64).astype(float)
+        from .sources import sample_points
+
+        lat, lon, ts, p_in, z_in = sample_points(latitude, longitude, time, pressure, height)
         n = lat.size
-        p_in = np.full(n, np.nan) if pressure is None else np.broadcast_to(np.asarray(pressure, float), (n,))
-        z_in = np.full(n, np.nan) if height is None else np.broadcast_to(np.asarray(height, float), (n,))
         parts = [self._sample(lat[s], lon[s], ts[s], p_in[s], z_in[s])
                  for s in (slice(i, i + self.batch) for i in range(0, max(n, 1), self.batch))]
         return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}

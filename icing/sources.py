@@ -25,9 +25,21 @@ import xarray as xr
 from .errors import IcingError
 from .profile import stack_profiles
 
-__all__ = ["SoundingSource", "EARTH_RADIUS_M"]
+__all__ = ["SoundingSource", "EARTH_RADIUS_M", "sample_points"]
 
 EARTH_RADIUS_M = 6371008.8  # IUGG mean Earth radius
+
+
+def sample_points(latitude, longitude, time, pressure=None, height=None):
+    """The arguments of a source's ``sample`` as flat float arrays: lat, lon (deg), time (s since 1970),
+    pressure (Pa) and height (m), NaN where not given."""
+    lat = np.atleast_1d(np.asarray(latitude, dtype=float))
+    lon = np.atleast_1d(np.asarray(longitude, dtype=float))
+    ts = np.atleast_1d(np.asarray(time, dtype="datetime64[s]")).astype(np.int64).astype(float)
+    n = lat.size
+    p_in = np.full(n, np.nan) if pressure is None else np.broadcast_to(np.asarray(pressure, float), (n,))
+    z_in = np.full(n, np.nan) if height is None else np.broadcast_to(np.asarray(height, float), (n,))
+    return lat, lon, ts, p_in, z_in
 
 
 def _haversine(lat1, lon1, lat2, lon2):
@@ -206,12 +218,8 @@ class SoundingSource:
         ``rh_water`` (%), ``wind_u``/``wind_v`` (m/s), ``freezing_level_m``, ``supercooled_top_m``,
         ``distance_km`` and ``age_h`` of the nearest data used, and ``sources`` (labels of the reports used).
         """
-        lat = np.atleast_1d(np.asarray(latitude, dtype=float))
-        lon = np.atleast_1d(np.asarray(longitude, dtype=float))
-        ts = np.atleast_1d(np.asarray(time, dtype="datetime64[s]")).astype(np.int64).astype(float)
+        lat, lon, ts, p_in, z_in = sample_points(latitude, longitude, time, pressure, height)
         n = lat.size
-        p_in = np.full(n, np.nan) if pressure is None else np.broadcast_to(np.asarray(pressure, float), (n,))
-        z_in = np.full(n, np.nan) if height is None else np.broadcast_to(np.asarray(height, float), (n,))
         w, dist = self.weights(lat, lon, ts) if weights is None else weights
         acc = {k: np.zeros(n) for k in ("temperature", "lwc", "lwc_mvd", "supercooled", "in_cloud", "rh_water",
                                         "pressure", "wind_u", "wind_v", "wind_w", "fz", "fz_w", "top", "top_w")}

@@ -24,6 +24,18 @@ CAUTION_MD = (
 )
 
 # Finds the bundled data from wherever the notebook runs: the repository checkout, or an installed copy.
+SETUP = """
+%matplotlib inline
+import matplotlib.pyplot as plt
+import numpy as np
+import pandas as pd
+
+pd.set_option("display.max_columns", 30)
+pd.set_option("display.max_colwidth", 100)
+pd.set_option("display.width", 160)
+pd.set_option("display.precision", 1)
+"""
+
 FIND_DATA = '''\
 from pathlib import Path
 
@@ -76,17 +88,7 @@ NB1 = [
     warm layers aloft and freezing rain; WMO-No. 306 (Manual on Codes) for the TEMP code. Full references at the
     end.
     """),
-    code("""
-    %matplotlib inline
-    import matplotlib.pyplot as plt
-    import numpy as np
-    import pandas as pd
-
-    pd.set_option("display.max_columns", 30)
-    pd.set_option("display.max_colwidth", 100)
-    pd.set_option("display.width", 160)
-    pd.set_option("display.precision", 1)
-    """),
+    code(SETUP),
     code(FIND_DATA),
     md("""
     ## Reading a TEMP report
@@ -636,17 +638,7 @@ NB3 = [
     Bourgouin (2000) for freezing rain; Finstad, Lozowski and Gates (1988), Messinger (1953) and Makkonen (2000)
     for the accretion; 14 CFR Part 25 Appendices C and O for the certification envelopes.
     """),
-    code("""
-    %matplotlib inline
-    import matplotlib.pyplot as plt
-    import numpy as np
-    import pandas as pd
-
-    pd.set_option("display.max_columns", 30)
-    pd.set_option("display.max_colwidth", 100)
-    pd.set_option("display.width", 160)
-    pd.set_option("display.precision", 1)
-    """),
+    code(SETUP),
     code(FIND_DATA),
     md("""
     ## The route and the soundings
@@ -854,17 +846,7 @@ NB4 = [
     liquid fraction; Bourgouin (2000) for warm layers aloft; Finstad, Lozowski and Gates (1988), Messinger
     (1953) and Makkonen (2000) for the accretion; 14 CFR Part 25 Appendix C for the reference clouds.
     """),
-    code("""
-    %matplotlib inline
-    import matplotlib.pyplot as plt
-    import numpy as np
-    import pandas as pd
-
-    pd.set_option("display.max_columns", 30)
-    pd.set_option("display.max_colwidth", 100)
-    pd.set_option("display.width", 160)
-    pd.set_option("display.precision", 1)
-    """),
+    code(SETUP),
     code(FIND_DATA),
     md("""
     ## Opening the field lazily
