@@ -21,7 +21,7 @@ CAUTION = (
 _EXPORTS = {
     "read_sounding": "icing.io",
     "read_profiles": "icing.io",
-    "read_soundings": "icing.collection",
+    "read_soundings": "icing.io",
     "build_profile": "icing.profile",
     "stack_profiles": "icing.profile",
     "diagnose": "icing.diagnose",

@@ -72,57 +72,17 @@ def atmosphere_source(soundings, **options):
 
     if isinstance(soundings, str) or hasattr(soundings, "__fspath__") or hasattr(soundings, "attrs"):
         soundings = [soundings]
+    from .io import read_paths
+
     read_opts = {k: options[k] for k in ("stations", "reference_time") if options.get(k) is not None}
     profiles = []
     for item in soundings:
         if isinstance(item, str) or hasattr(item, "__fspath__"):
-            profiles.extend(_read_paths(item, read_opts))
+            profiles.extend(read_paths(item, **read_opts))
         else:
             profiles.append(item)
     keys = {"max_distance_km", "max_age_hours", "max_stations", "cold_limit", "airmass"}
     return SoundingSource(profiles, **{k: v for k, v in options.items() if k in keys})
-
-
-def _read_one(path, read_opts):
-    """Every profile of one file, giving its reader only the options it takes."""
-    import inspect
-
-    from .io import reader_for
-
-    mod = reader_for(path)
-    params = inspect.signature(mod.read).parameters
-    opts = {k: v for k, v in read_opts.items() if k in params}
-    profiles = mod.read(path, **opts)
-    if not profiles:
-        from .errors import SoundingFormatError
-
-        raise SoundingFormatError("no profile found in the file", file=path)
-    return profiles
-
-
-def _read_paths(item, read_opts=None):
-    from pathlib import Path
-
-    from .errors import SoundingFormatError
-
-    read_opts = read_opts or {}
-    p = Path(item)
-    if p.is_dir():
-        files = sorted(f for f in p.iterdir() if f.is_file() and not f.name.startswith(".")
-                       and f.suffix.lower() in (".csv", ".tsv", ".txt", ".nc", ".bufr", ".bin", ".temp", ".dat"))
-        if not files:
-            raise SoundingFormatError("no sounding files in this directory", file=p)
-        out = []
-        for f in files:
-            try:
-                out.extend(_read_one(f, read_opts))
-            except SoundingFormatError as exc:
-                # A station table or a model grid beside the soundings is not one of them; anything else is.
-                if "not a known sounding format" in exc.reason or "gridded model fields" in exc.reason:
-                    continue
-                raise
-        return out
-    return _read_one(p, read_opts)
 
 
 def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):

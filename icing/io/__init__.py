@@ -13,7 +13,11 @@ from pathlib import Path
 
 from ..errors import SoundingFormatError
 
-__all__ = ["read_sounding", "read_profiles", "reader_for", "FORMATS"]
+__all__ = ["read_sounding", "read_profiles", "read_soundings", "read_paths", "reader_for", "FORMATS"]
+
+_READER_OPTIONS = {"stations", "reference_time", "start", "end"}
+# File endings a directory read looks at (anything else in the folder is not taken for a sounding).
+SOUNDING_SUFFIXES = (".csv", ".tsv", ".txt", ".nc", ".nc4", ".bufr", ".bin", ".temp", ".dat")
 
 # Order matters: the most specific sniffers first; the delimited-table reader last.
 _READERS = ["netcdf", "bufr", "igra", "temp", "table"]
@@ -53,12 +57,93 @@ def reader_for(path, format: str | None = None):
 
 
 def read_profiles(path, format: str | None = None, **options):
-    """Every profile in a file, as a list of canonical profile Datasets."""
+    """Every profile in a file, as a list of canonical profile Datasets.
+
+    Options are passed to the reader that takes them (``stations`` and ``reference_time`` for TEMP, ``start``
+    and ``end`` for IGRA); options a reader does not take are not given to it.
+    """
+    import inspect
+
     mod = reader_for(path, format)
-    profiles = mod.read(path, **options)
+    params = inspect.signature(mod.read).parameters
+    # Options meant for other readers are left out; anything else goes through (a reader refuses a typo).
+    opts = {k: v for k, v in options.items() if v is not None and (k in params or k not in _READER_OPTIONS)}
+    profiles = mod.read(path, **opts)
     if not profiles:
         raise SoundingFormatError("no profile found in the file", file=path)
     return profiles
+
+
+def read_paths(paths, progress=None, **options) -> list:
+    """Every profile in the given files and directories (a directory: its sounding files, sorted by name).
+
+    In a directory, files that are no sounding (a station table, a model grid) are passed over; a sounding file
+    that cannot be read is an error naming it. ``progress(done, total, what)`` is called after each file.
+    """
+    if isinstance(paths, str | Path):
+        paths = [paths]
+    files = []  # (path, skip-if-not-a-sounding)
+    for item in paths:
+        p = Path(item)
+        if p.is_dir():
+            found = sorted(f for f in p.iterdir() if f.is_file() and not f.name.startswith(".")
+                           and f.suffix.lower() in SOUNDING_SUFFIXES)
+            if not found:
+                raise SoundingFormatError("no sounding files in this directory", file=p)
+            files += [(f, True) for f in found]
+        else:
+            files.append((p, False))
+    out = []
+    for k, (f, lenient) in enumerate(files):
+        try:
+            out.extend(read_profiles(f, **options))
+        except SoundingFormatError as exc:
+            if not (lenient and ("not a known sounding format" in exc.reason or "gridded model fields" in exc.reason)):
+                raise
+        if progress is not None:
+            progress(k + 1, len(files), f.name)
+    return out
+
+
+def read_soundings(paths_or_dir, progress=None, **options):
+    """Many sounding files of any supported format as one Dataset with a ``profile`` dimension.
+
+    Levels are padded with NaN; station, position, elevation, valid time, source and format are variables
+    along ``profile``; the quality records of all files are in ``attrs["quality"]``, tagged by profile. With
+    more than 20 files and a terminal on stderr, a progress bar is drawn there (or pass ``progress``).
+    """
+    from ..profile import stack_profiles
+
+    if progress is None:
+        progress = _terminal_progress()
+    profiles = read_paths(paths_or_dir, progress=progress, **options)
+    if progress is not None and hasattr(progress, "close"):
+        progress.close()
+    return stack_profiles(profiles)
+
+
+class _terminal_progress:
+    """A one-line bar on stderr for long reads, drawn only on a terminal and past 20 files."""
+
+    def __init__(self):
+        import sys
+
+        self.stream = sys.stderr
+        self.on = hasattr(self.stream, "isatty") and self.stream.isatty()
+        self.drawn = False
+
+    def __call__(self, done, total, what=""):
+        if not self.on or total <= 20:
+            return
+        k = round(30 * done / total)
+        self.stream.write(f"\rreading soundings [{'#' * k}{'.' * (30 - k)}] {done}/{total} {what}"[:79].ljust(79))
+        self.stream.flush()
+        self.drawn = True
+
+    def close(self):
+        if self.drawn:
+            self.stream.write("\r" + " " * 79 + "\r")
+            self.stream.flush()
 
 
 def read_sounding(path, format: str | None = None, **options):
