@@ -278,12 +278,17 @@ def plan_geometry(route: Route, aircraft, transition_ft: float = DEFAULT_TRANSIT
     return {"route": route, "legs": parts, "t0": route.departure.value / 1e9}
 
 
+def _wind_point_count(dist_m, spacing_m=10000.0):
+    """How many wind points :func:`wind_points` puts on a leg of this length (both ends included)."""
+    return max(int(np.ceil(dist_m / spacing_m)), 1) + 1
+
+
 def wind_points(geo: dict, spacing_m: float = 10000.0) -> dict:
     """Points (about every 10 km) where the along-track wind is wanted, with times estimated from TAS."""
     out = {k: [] for k in ("latitude", "longitude", "time_s", "altitude_ft", "flight_level", "azimuth", "leg")}
     t = geo["t0"]
     for k, leg in enumerate(geo["legs"]):
-        n = max(int(np.ceil(leg["dist"] / spacing_m)), 1) + 1
+        n = _wind_point_count(leg["dist"], spacing_m)
         sw = np.linspace(0.0, leg["dist"], n)
         t_fine = np.concatenate([[0.0], np.cumsum(np.diff(leg["s"]) / leg["tas"])])
         lon, lat, _ = GEOD.fwd(np.full(n, leg["a"].longitude), np.full(n, leg["a"].latitude),
@@ -314,10 +319,7 @@ def timed_arrays(geo: dict, step_s: float = 60.0, wind=None) -> dict:
                             "phase", "tas_ms", "ground_speed_ms", "distance_m")}
     t0 = geo["t0"]
     start = 0
-    wp_leg = None
     if wind is not None:
-        wp = wind_points(geo)
-        wp_leg = wp["leg"]
         wind = np.asarray(wind, dtype=float)
     for k, leg in enumerate(geo["legs"]):
         s, s_mid, tas = leg["s"], leg["s_mid"], leg["tas"]
@@ -325,8 +327,7 @@ def timed_arrays(geo: dict, step_s: float = 60.0, wind=None) -> dict:
         if leg["fixed_s"] is not None:
             gs = np.full_like(tas, leg["dist"] / leg["fixed_s"])  # times at both ends fix the mean speed
         elif wind is not None:
-            sel = wp_leg == k
-            n = int(sel.sum())
+            n = _wind_point_count(leg["dist"])
             ws = wind[start:start + n]
             start += n
             sw = np.linspace(0.0, leg["dist"], n)
