@@ -28,8 +28,8 @@ DATA_STATUS = ("ok", "partial", "missing")
 SEGMENT_COLUMNS = ["segment", "start", "end", "start_time", "end_time", "distance_nm", "altitude_ft_min",
                    "altitude_ft_max", "icing_minutes", "max_rate_mm_per_h", "accretion_mm", "intensity", "ice_type",
                    "large_drops", "data", "sources"]
-EXTRA_COLUMNS = ["max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft", "supercooled_top_ft",
-                 "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
+EXTRA_COLUMNS = ["warm_surface_minutes", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
+                 "supercooled_top_ft", "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
                  "best_accretion_mm"]
 DEFAULT_OFFSETS_FT = (-6000.0, -4000.0, -2000.0, 2000.0, 4000.0, 6000.0)
 MIN_ALTERNATIVE_FT = 2000.0  # alternatives below this are not offered (terrain and airspace are unknown here)
@@ -112,7 +112,10 @@ def _accrete(atm, tas_ms, body_diameter_m):
     ice = np.clip(np.where(supercooled, np.asarray(core["ice_type"]), 0), 0, 3).astype(np.int8)
     missing = ~(atm["coverage"] > 0)
     rate = np.where(missing, np.nan, rate)
-    return rate, ice, supercooled & ~missing
+    # Supercooled drops hit the body but kinetic and aerodynamic heating keep its surface above 0 degC: no ice
+    # at the leading edge, though the water may freeze further aft (runback), which this model does not follow.
+    warm = supercooled & ~missing & np.asarray(core["warm_surface"], dtype=bool)
+    return rate, ice, supercooled & ~missing, warm
 
 
 def _intensity(rate_mm_h):
@@ -187,11 +190,12 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         weights = source.weights(traj["latitude"].to_numpy(), traj["longitude"].to_numpy(),
                                  traj["time_s"].to_numpy().astype("int64").astype(float))
     atm, _ = _sample_atmosphere(source, traj, weights=weights)
-    rate, ice, icing = _accrete(atm, tas, ac.body_diameter_m)
+    rate, ice, icing, warm = _accrete(atm, tas, ac.body_diameter_m)
     dur = traj["duration_s"].to_numpy()
     samples = traj.assign(
         pressure_hpa=atm["pressure"] / 100.0, temperature_c=atm["temperature"], lwc_g_m3=atm["lwc"],
         mvd_um=atm["mvd"], large_drop=atm["large_drop"], coverage=atm["coverage"], in_icing=icing,
+        warm_surface=warm,
         rate_mm_per_h=rate, accretion_mm=rate * dur / 3600.0, ice_type=np.asarray(ICE_TYPES)[ice],
         freezing_level_ft=atm["freezing_level_m"] / FT, supercooled_top_ft=atm["supercooled_top_m"] / FT,
         data_distance_km=atm["distance_km"], data_age_h=atm["age_h"])
@@ -199,7 +203,7 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
     alt_acc = {}
     for off in offsets_ft:
         a2, alt2 = _sample_atmosphere(source, traj, off, weights=weights)
-        r2, _, _ = _accrete(a2, tas, ac.body_diameter_m)
+        r2 = _accrete(a2, tas, ac.body_diameter_m)[0]
         acc2 = np.where((a2["coverage"] >= FULL) & (alt2 >= MIN_ALTERNATIVE_FT), r2 * dur / 3600.0, np.nan)
         alt_acc[off] = acc2
     segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice)
@@ -314,6 +318,7 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice):
         "ice_type": np.asarray(ICE_TYPES)[_reduce(np.maximum, ice.astype(int), starts)],
         "large_drops": np.asarray(LARGE_DROPS)[_reduce(np.maximum, ld, starts)],
         "data": data, "sources": sources,
+        "warm_surface_minutes": _reduce(np.add, dur * smp["warm_surface"].to_numpy(), starts) / 60.0,
         "max_lwc_g_m3": _reduce(np.maximum, np.where(icing, lwc, 0.0), starts),
         "mvd_um": np.where(n_icing > 0, _reduce(np.add, np.where(icing, np.nan_to_num(mvd), 0.0), starts)
                            / np.where(n_icing > 0, n_icing, 1), np.nan),

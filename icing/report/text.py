@@ -68,6 +68,10 @@ def segment_table(assessment) -> str:
     if (seg["large_drops"] != "none").any():
         out.append("Supercooled large drops possible (freezing drizzle or rain): beyond what the droplet-size "
                    "model above covers; see the large drops column.")
+    if (seg["warm_surface_minutes"] > 0).any():
+        mins = seg["warm_surface_minutes"].sum()
+        out.append(f"For {mins:.0f} of the minutes in supercooled liquid the air's heating of the leading edge keeps "
+                   "it above 0 degC: no ice grows there, but the water can run back and freeze behind it.")
     out.append(s["intensity_note"])
     out.append("")
     out.append(wrap)
