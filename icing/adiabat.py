@@ -154,8 +154,11 @@ def _bilinear(table, axis0, values0, lnp):
     i1 = f1.astype(np.intp)
     w0 = f0 - i0
     w1 = f1 - i1
-    a = table[i0, i1] * (1.0 - w1) + table[i0, i1 + 1] * w1
-    b = table[i0 + 1, i1] * (1.0 - w1) + table[i0 + 1, i1 + 1] * w1
+    ncol = table.shape[1]
+    flat = table.ravel()
+    k = i0 * ncol + i1  # flat index of table[i0, i1]; np.take is faster than 2-D fancy indexing
+    a = np.take(flat, k) * (1.0 - w1) + np.take(flat, k + 1) * w1
+    b = np.take(flat, k + ncol) * (1.0 - w1) + np.take(flat, k + ncol + 1) * w1
     return a * (1.0 - w0) + b * w0
 
 
@@ -174,7 +177,7 @@ def moist_adiabat_temperature_from_theta_w(pressure, theta_w):
     return _bilinear(tab, _TW, np.asarray(theta_w, dtype=float), np.log(np.asarray(pressure, dtype=float)))
 
 
-def adiabatic_lwc_from_bases(pressure, temperature, in_cloud):
+def adiabatic_lwc_from_bases(pressure, temperature, in_cloud, *, log_pressure=None):
     """Adiabatic LWC (kg/m3) and parcel temperature (K) in every cloud layer, each from its own base.
 
     Parameters
@@ -184,6 +187,8 @@ def adiabatic_lwc_from_bases(pressure, temperature, in_cloud):
     in_cloud : array_like of bool (..., level)
         Cloud levels; each run of cloud levels is a layer whose lowest level is its base, where the parcel
         starts saturated at the environmental temperature.
+    log_pressure : array_like (..., level), optional
+        ``ln(pressure)`` if the caller has it already (saves recomputing it).
 
     Returns
     -------
@@ -202,17 +207,26 @@ def adiabatic_lwc_from_bases(pressure, temperature, in_cloud):
     p2, t2, c2 = p.reshape(-1, shape[-1]), t.reshape(-1, shape[-1]), c.reshape(-1, shape[-1])
     prev = np.zeros_like(c2)
     prev[:, 1:] = c2[:, :-1]
-    base = c2 & ~prev
-    rid = np.cumsum(base.ravel()) - 1  # run id of every cloud level (runs are contiguous in flat order)
-    pb, tb = p2[base], t2[base]
-    tw_base = wet_bulb_potential_temperature_saturated(pb, tb)
-    rt_base = saturation_mixing_ratio_bolton(pb, tb)
+    base = (c2 & ~prev).ravel()
     idx = np.flatnonzero(c2.ravel())
-    run = rid[idx]
-    pc = p2.ravel()[idx]
-    tp_c = moist_adiabat_temperature_from_theta_w(pc, tw_base[run])
+    if idx.size == 0:
+        return np.zeros(shape), np.full(shape, np.nan)
+    is_base = base[idx]
+    # Run id of every cloud level (runs are contiguous in flat order); numpy sums bytes into int32 far
+    # faster than booleans into int64.
+    run = np.cumsum(is_base.view(np.uint8), dtype=np.int32 if is_base.size < 2**31 - 1 else np.int64) - 1
+    bidx = idx[is_base]
+    pf, tf = p2.ravel(), t2.ravel()
+    lnp = np.log(pf[idx]) if log_pressure is None else np.asarray(log_pressure, dtype=float).ravel()[idx]
+    pb, tb = pf[bidx], tf[bidx]
+    _, inv = _tables()
+    tw_base = _bilinear(inv, _TT, tb, lnp[is_base])  # wet_bulb_potential_temperature_saturated
+    rt_base = saturation_mixing_ratio_bolton(pb, tb)
+    pc = pf[idx]
+    tab, _ = _tables()
+    tp_c = _bilinear(tab, _TW, tw_base[run], lnp)  # moist_adiabat_temperature_from_theta_w
     # At the base itself the parcel is the environment (removes the table's small round trip).
-    tp_c = np.where(base.ravel()[idx], t2.ravel()[idx], tp_c)
+    tp_c = np.where(is_base, tf[idx], tp_c)
     lwc_c = adiabatic_liquid_water_content(pc, tp_c, rt_base[run])
     tp = np.full(p2.size, np.nan)
     lwc = np.zeros(p2.size)

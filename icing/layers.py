@@ -82,8 +82,17 @@ def _runs(mask):
     start = mask & ~prev
     starts = np.flatnonzero(start)
     ends = np.flatnonzero(mask & ~nxt)
-    rid = np.where(mask, np.cumsum(start.ravel()).reshape(mask.shape) - 1, -1)
+    rid = _count(start).reshape(mask.shape)
+    rid *= mask
+    rid -= 1
     return starts, ends, rid
+
+
+def _count(flags):
+    """Running count of True in a boolean array, flattened (numpy sums bytes into int32 far faster than
+    booleans into int64; int64 only for arrays too large for int32)."""
+    flat = np.ascontiguousarray(flags).ravel().view(np.uint8)
+    return np.cumsum(flat, dtype=np.int32 if flat.size < 2**31 - 1 else np.int64)
 
 
 def _reduce(ufunc, values, mask, starts, fill):
@@ -91,6 +100,22 @@ def _reduce(ufunc, values, mask, starts, fill):
     if starts.size == 0:
         return np.zeros(0)
     return ufunc.reduceat(np.where(mask, values, fill).ravel(), starts)
+
+
+def _reduce_runs(ufunc, values, starts, ends, fill):
+    """:func:`_reduce` over the runs of a mask given by their ``starts`` and ``ends`` (from :func:`_runs`),
+    without building the filled array: the reduction covers each run alone, and the fill is folded in where
+    :func:`_reduce`'s window (up to the next start) reaches past the run, so that the results are the same."""
+    if starts.size == 0:
+        return np.zeros(0)
+    flat = np.ascontiguousarray(values).ravel()
+    idx = np.empty(2 * starts.size, dtype=np.intp)
+    idx[0::2] = starts
+    idx[1::2] = ends + 1
+    last_at_end = idx[-1] >= flat.size
+    out = ufunc.reduceat(flat, idx[:-1] if last_at_end else idx)[0::2]
+    window_end = np.append(starts[1:], flat.size)
+    return np.where(window_end > ends + 1, ufunc(out, fill), out)
 
 
 def _spread(run_values, rid, default):
@@ -160,7 +185,7 @@ def cloud_mask(height_agl, rh_cloud, **params):
     zb = _boundaries(z, f)
     s, e, rid = _runs(moist)
     base, top = _run_bounds(z, zb, s, e, n)
-    max_rh = _reduce(np.fmax, rh, moist, s, -np.inf)
+    max_rh = _reduce_runs(np.fmax, rh, s, e, -np.inf)
     keep = ~((base < p["min_moist_base_m"]) & (top - base < p["min_moist_thickness_m"]))
     keep &= max_rh > zhang_thresholds(base, p["max_rh"])
     cloud = moist & _spread(keep, rid, False) & (z >= p["min_cloud_base_m"])
@@ -171,8 +196,10 @@ def cloud_mask(height_agl, rh_cloud, **params):
     gs, ge, grid = _runs(gap)
     if gs.size:
         glo, ghi = _run_bounds(z, zb, gs, ge, n)
-        min_gap_rh = _reduce(np.fmin, rh, gap, gs, np.inf)
-        max_inter = _reduce(np.fmax, zhang_thresholds(z, p["inter_rh"]), gap, gs, -np.inf)
+        min_gap_rh = _reduce_runs(np.fmin, rh, gs, ge, np.inf)
+        inter = np.full(z.shape, -np.inf)
+        inter[gap] = zhang_thresholds(z[gap], p["inter_rh"])  # only the gap levels count
+        max_inter = _reduce_runs(np.fmax, inter, gs, ge, -np.inf)
         merge = (ghi - glo < p["merge_gap_m"]) | (min_gap_rh > max_inter)
         cloud |= gap & _spread(merge, grid, False)
     # Drop thin clouds.
@@ -214,26 +241,40 @@ def energy_area_by_level(pressure, temperature):
     """
     p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
-    x = np.log(p)
     with np.errstate(invalid="ignore", divide="ignore"):
-        lnth = np.log(t) - KAPPA * x
+        return _energy_area(np.log(p), np.log(t), t)
+
+
+def _energy_area(x, lnt, t):
+    """:func:`energy_area_by_level` from ln p, ln T and T (P, n); the split at 0 degC is worked out only in
+    the intervals that cross it."""
+    out = np.zeros(t.shape)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lnth = lnt - KAPPA * x
         d0, d1 = t[:, :-1] - thermo.T0, t[:, 1:] - thermo.T0
-        cross = (d0 > 0) != (d1 > 0)
-        frac = np.where(cross, d0 / (d0 - d1), 1.0)
-        xc = x[:, :-1] + frac * (x[:, 1:] - x[:, :-1])
-        lnth_c = np.where(cross, np.log(thermo.T0) - KAPPA * xc, lnth[:, 1:])
-        lower = thermo.CP_D * np.abs(np.where(cross, 0.5 * d0, 0.5 * (d0 + d1)) * (lnth_c - lnth[:, :-1]))
-        upper = np.where(cross, thermo.CP_D * np.abs(0.5 * d1 * (lnth[:, 1:] - lnth_c)), 0.0)
-    lower = np.where(np.isfinite(lower), lower, 0.0)
-    upper = np.where(np.isfinite(upper), upper, 0.0)
-    out = np.zeros(p.shape)
-    out[:, :-1] += lower
-    out[:, 1:] += upper
+        cross = np.flatnonzero((d0 > 0) != (d1 > 0))
+        lower = np.add(d0, d1)  # the whole interval on one side of 0 degC (in place: no temporaries)
+        lower *= 0.5
+        lower *= lnth[:, 1:] - lnth[:, :-1]
+        np.abs(lower, out=lower)
+        lower *= thermo.CP_D
+        if cross.size:
+            rows, cols = np.divmod(cross, lower.shape[1])
+            c0, c1 = d0[rows, cols], d1[rows, cols]
+            x0, x1 = x[rows, cols], x[rows, cols + 1]
+            xc = x0 + c0 / (c0 - c1) * (x1 - x0)
+            lnth_c = np.log(thermo.T0) - KAPPA * xc
+            lower[rows, cols] = thermo.CP_D * np.abs(0.5 * c0 * (lnth_c - lnth[rows, cols]))
+            upper = thermo.CP_D * np.abs(0.5 * c1 * (lnth[rows, cols + 1] - lnth_c))
+    lower[~np.isfinite(lower)] = 0.0
+    out[:, :-1] = lower
+    if cross.size:
+        out[rows, cols + 1] += np.where(np.isfinite(upper), upper, 0.0)
     return out
 
 
 def precipitation_type(pressure, temperature, source_level, source_phase, humidity_complete,
-                       melting_area_aloft=2.0):
+                       melting_area_aloft=2.0, *, log_pressure=None, log_temperature=None):
     """Precipitation type at the lowest level by the Bourgouin (2000) energy-area method, top down.
 
     Parameters
@@ -247,6 +288,8 @@ def precipitation_type(pressure, temperature, source_level, source_phase, humidi
         (cloud above 0 degC).
     humidity_complete : ndarray of bool (P,)
         Whether humidity was known at every level with a temperature; without it "none" becomes "unknown".
+    log_pressure, log_temperature : ndarray (P, n), optional
+        ``ln(pressure)`` and ``ln(temperature)`` if the caller has them already (saves recomputing them).
 
     Returns
     -------
@@ -270,9 +313,13 @@ def precipitation_type(pressure, temperature, source_level, source_phase, humidi
     fin = np.isfinite(t)
     warm = fin & (t > thermo.T0)
     area_lev = np.zeros(t.shape)
-    mixed = np.flatnonzero(warm.any(axis=-1) & (fin & ~warm).any(axis=-1))
-    if mixed.size:  # areas decide nothing in columns that are all warm or all cold
-        area_lev[mixed] = energy_area_by_level(p[mixed], t[mixed])
+    # Areas decide nothing in columns that are all warm or all cold, nor where nothing precipitates.
+    mixed = np.flatnonzero(warm.any(axis=-1) & (fin & ~warm).any(axis=-1) & (np.asarray(source_level) >= 0))
+    if mixed.size:
+        with np.errstate(invalid="ignore", divide="ignore"):
+            x = np.log(p[mixed]) if log_pressure is None else np.asarray(log_pressure)[mixed]
+            lnt = np.log(t[mixed]) if log_temperature is None else np.asarray(log_temperature)[mixed]
+        area_lev[mixed] = _energy_area(x, lnt, t[mixed])
     # Warm and cold layers: runs of same sign over the finite levels, numbered in flat order.
     prev_fin = np.zeros_like(fin)
     prev_fin[:, 1:] = fin[:, :-1]
@@ -282,7 +329,9 @@ def precipitation_type(pressure, temperature, source_level, source_phase, humidi
     starts = np.flatnonzero(start)
     is_warm = warm.ravel()[starts]
     area = _reduce(np.add, area_lev, fin, starts, 0.0)
-    lid = np.where(fin, np.cumsum(start.ravel()).reshape(t.shape) - 1, -1)  # layer index of every level
+    lid = _count(start).reshape(t.shape)  # layer index of every level, -1 beyond the data
+    lid *= fin
+    lid -= 1
     row = starts // n
     count = np.bincount(row, minlength=npro)
     first = np.concatenate([[0], np.cumsum(count)[:-1]])
@@ -335,7 +384,7 @@ def precipitation_type(pressure, temperature, source_level, source_phase, humidi
     ptype[count == 0] = -1
     liquid_into_cold = np.zeros((npro, n), bool)
     if nl:
-        lev_ord = np.where(lid >= 0, ord_top[np.maximum(lid, 0)], 0)
+        lev_ord = ord_top[np.maximum(lid, 0)]  # any layer where lid is -1: masked out just below
         liquid_into_cold = (lid >= 0) & ~warm & rain2[np.arange(npro)[:, None], lev_ord]
     return ptype, liquid_into_cold
 
