@@ -87,6 +87,13 @@ def _overrides(pairs):
     return out
 
 
+def _add_reader_options(p):
+    p.add_argument("--stations", metavar="CSV", help="station table (station,name,latitude,longitude,"
+                   "elevation_m) for reports without positions, such as TEMP")
+    p.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
+                   "and hour (for example 2026-01-15)")
+
+
 def _add_screen_options(sp):
     sp.add_argument("--aircraft", default="turboprop", help="preset name or TOML file (default turboprop)")
     sp.add_argument("--set", action="append", metavar="KEY=VALUE", help="override an aircraft field")
@@ -97,10 +104,7 @@ def _add_screen_options(sp):
     sp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
     sp.add_argument("--airmass", choices=["continental", "marine"], default="continental",
                     help="droplet number concentration assumed for MVD (default continental)")
-    sp.add_argument("--stations", metavar="CSV", help="station table (station,name,latitude,longitude,"
-                    "elevation_m) for reports without positions, such as TEMP")
-    sp.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
-                    "and hour (for example 2026-01-15)")
+    _add_reader_options(sp)
     sp.add_argument("--json", action="store_true", help="the full result as JSON (same as --format json)")
     sp.add_argument("--format", choices=["table", "json", "csv", "geojson"], default="table")
     sp.add_argument("--out", metavar="DIR", help="write the report files (CSV, JSON, GeoJSON, HTML) to DIR")
@@ -127,12 +131,14 @@ def build_parser() -> argparse.ArgumentParser:
     lp = sub.add_parser("layers", help="supercooled-liquid layers of soundings", epilog=EXAMPLES["layers"],
                         formatter_class=argparse.RawDescriptionHelpFormatter)
     lp.add_argument("soundings", nargs="+")
+    _add_reader_options(lp)
     lp.add_argument("--cold-limit", type=float, default=-40.0)
     lp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
     lp.add_argument("--format", choices=["table", "csv", "json"], default="table")
     ip = sub.add_parser("inspect", help="print soundings as read and their quality records",
                         epilog=EXAMPLES["inspect"], formatter_class=argparse.RawDescriptionHelpFormatter)
     ip.add_argument("soundings", nargs="+")
+    _add_reader_options(ip)
     sub.add_parser("aircraft", help="list the aircraft presets", epilog=EXAMPLES["aircraft"],
                    formatter_class=argparse.RawDescriptionHelpFormatter)
     pp = sub.add_parser("plot", help="draw a sounding diagram (skew-T with supercooled layers, LWC and MVD)",
@@ -203,7 +209,7 @@ def _layers(args):
 
     frames = []
     for path in args.soundings:
-        for prof in read_profiles(path):
+        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time):
             t = supercooled_layers(prof, cold_limit=args.cold_limit, airmass=args.airmass)
             t.insert(0, "time", prof.attrs.get("time", ""))
             t.insert(0, "station", prof.attrs.get("station", ""))
@@ -237,7 +243,7 @@ def _inspect(args):
     from .profile import format_quality
 
     for path in args.soundings:
-        for prof in read_profiles(path):
+        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time):
             a = prof.attrs
             print(f"{a.get('station', '?')} {a.get('name', '')} {a.get('time', '')} lat {a.get('latitude')} "
                   f"lon {a.get('longitude')} elevation {a.get('elevation')} m  [{a.get('format')}: {a.get('source')}]")
