@@ -45,6 +45,8 @@ class Assessment:
     samples: pd.DataFrame
     caution: str = CAUTION
     alternatives: pd.DataFrame = field(default_factory=pd.DataFrame)
+    route: object = field(default=None, repr=False)  # the icing.route.Route screened
+    source: object = field(default=None, repr=False)  # the atmosphere source used
 
     def to_dict(self) -> dict:
         seg = self.segments.copy()
@@ -225,7 +227,8 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         smp = _view(samples, bounds[i], bounds[i + 1])
         summary = _summary(r, ac, {k: v[a:b] for k, v in cols.items()}, step_s)
         summary["alternative_offsets_ft"] = [float(o) for o in offsets_ft]
-        out.append(Assessment(segments=seg, summary=summary, samples=smp, alternatives=alts))
+        out.append(Assessment(segments=seg, summary=summary, samples=smp, alternatives=alts, route=r,
+                              source=source))
     return out
 
 

@@ -109,3 +109,24 @@ def test_text_round_trip(plain):
     back = json.loads(json.dumps(fc, indent=1, allow_nan=False))
     check_collection(back)
     assert back == fc
+
+
+def test_segment_lines_start_and_end_at_their_waypoints():
+    """Each segment's line runs from its start waypoint to its end waypoint (RFC 7946 order [lon, lat, alt m];
+    altitude ft x 0.3048 exactly), so consecutive features meet."""
+    from pathlib import Path
+
+    from icing.assess import assess_route
+    from icing.report.files import segments_geojson
+
+    samples = Path(__file__).parents[1] / "sample_soundings"
+    res = assess_route(samples / "demo_route.csv", sorted(samples.glob("S?_*.csv")), "turboprop")
+    feats = segments_geojson(res)["features"]
+    wps = res.route.waypoints
+    for k, f in enumerate(feats):
+        c = f["geometry"]["coordinates"]
+        assert c[0][:2] == [round(wps[k].longitude, 6), round(wps[k].latitude, 6)]
+        assert c[-1][:2] == [round(wps[k + 1].longitude, 6), round(wps[k + 1].latitude, 6)]
+        assert abs(c[0][2] - wps[k].altitude_ft * 0.3048) < 0.06
+    for a, b in zip(feats[:-1], feats[1:], strict=True):
+        assert a["geometry"]["coordinates"][-1] == b["geometry"]["coordinates"][0]

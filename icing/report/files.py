@@ -29,6 +29,10 @@ def _clean(v):
     return v
 
 
+def _lon180(lon):
+    return ((float(lon) + 180.0) % 360.0) - 180.0
+
+
 def _split_antimeridian(coords):
     """Split a line where it crosses the antimeridian (RFC 7946 section 3.1.9)."""
     parts = [[coords[0]]]
@@ -58,6 +62,12 @@ def segments_geojson(assessment) -> dict:
         leg = smp[smp["leg"] == row["segment"] - 1]
         coords = [[round(float(lo), 6), round(float(la), 6), round(float(z) * FT, 1)]
                   for lo, la, z in zip(leg["longitude"], leg["latitude"], leg["altitude_ft"], strict=True)]
+        route = getattr(assessment, "route", None)
+        if route is not None:  # run the line from waypoint to waypoint, not from sample to sample
+            k = int(row["segment"]) - 1
+            a, b = route.waypoints[k], route.waypoints[k + 1]
+            coords = ([[round(_lon180(a.longitude), 6), round(a.latitude, 6), round(a.altitude_ft * FT, 1)]]
+                      + coords + [[round(_lon180(b.longitude), 6), round(b.latitude, 6), round(b.altitude_ft * FT, 1)]])
         if len(coords) == 1:
             coords = coords * 2
         parts = _split_antimeridian(coords)
