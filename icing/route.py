@@ -16,7 +16,7 @@ import pandas as pd
 from pyproj import Geod
 
 from .errors import RouteFormatError, UnitError
-from .units import FT, KT, NMI, parse_altitude, parse_speed
+from .units import FT, KT, parse_altitude, parse_speed
 
 __all__ = ["Waypoint", "Route", "read_route", "trajectory", "plan_geometry", "wind_points", "timed_samples",
            "timed_arrays", "GEOD",
@@ -359,7 +359,3 @@ def timed_arrays(geo: dict, step_s: float = 60.0, wind=None) -> dict:
         t0 += total
     return {k: np.concatenate(v) for k, v in cols.items()}
 
-
-def nm(meters):
-    """Metres to nautical miles."""
-    return np.asarray(meters) / NMI
