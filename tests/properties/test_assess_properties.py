@@ -1,0 +1,41 @@
+"""Property tests of the route scorer (hypothesis): unknown is never safe; totals add up."""
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from icing.assess import assess_route
+from icing.profile import build_profile
+from icing.route import Route
+from icing.sources import SoundingSource
+
+P = np.array([1000.0, 900.0, 800.0, 700.0, 600.0, 500.0, 400.0, 300.0])
+T = np.array([4.0, -3.0, -8.0, -13.0, -19.0, -26.0, -36.0, -48.0])
+DD = np.array([3.0, 0.2, 0.2, 0.3, 12.0, 20.0, 20.0, 20.0])
+SOURCE = SoundingSource([build_profile(P, T, dewpoint=T - DD, station="Q1", latitude=50.0, longitude=-20.0,
+                                       elevation=0.0, time="2026-01-15T06:00Z")], max_distance_km=250.0,
+                        max_age_hours=6.0)
+
+
+@settings(max_examples=15, deadline=None)
+@given(st.floats(45.0, 56.0), st.floats(-30.0, -10.0), st.floats(45.0, 56.0), st.floats(-30.0, -10.0),
+       st.integers(30, 200), st.integers(-12, 12))
+def test_no_data_never_reads_none(lat1, lon1, lat2, lon2, fl, hours):
+    """Wherever a sample has no matching data its rate is unknown (NaN), and a segment with any such sample is
+    never 'none'; a segment without any data is 'unknown' (project rule: unknown is never safe)."""
+    if abs(lat1 - lat2) + abs(lon1 - lon2) < 0.3:
+        lat2 += 0.5
+    dep = np.datetime64("2026-01-15T06:00") + np.timedelta64(hours, "h")
+    route = Route.from_points([("A", lat1, lon1, f"FL{fl:03d}"), ("B", lat2, lon2, f"FL{fl:03d}")],
+                              departure=str(dep))
+    res = assess_route(route, SOURCE, "turboprop")
+    smp = res.samples
+    assert np.isnan(smp.loc[smp["coverage"] <= 0, "rate_mm_per_h"]).all()
+    for _, seg in res.segments.iterrows():
+        leg = smp[smp["leg"] == seg["segment"] - 1]
+        if (leg["coverage"] < 0.999).any():
+            assert seg["intensity"] != "none"
+            assert seg["data"] in ("partial", "missing")
+        if (leg["coverage"] <= 0).all():
+            assert seg["intensity"] == "unknown" and seg["data"] == "missing"
+    assert np.isclose(res.summary["total_icing_minutes"], res.segments["icing_minutes"].sum())
