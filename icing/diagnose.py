@@ -20,7 +20,7 @@ import xarray as xr
 
 from . import CAUTION, adiabat, envelopes, layers, microphysics, thermo
 from .errors import ConfigError
-from .units import ureg
+from .units import dataarray_to_unit, ureg
 
 __all__ = ["diagnose_arrays", "diagnose", "DEFAULT_COLD_LIMIT_C", "LEVEL_OUTPUTS", "PROFILE_OUTPUTS",
            "THREADS_ENV"]
@@ -408,16 +408,6 @@ _DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "val
            "freezing_level_count": np.int64}
 
 
-def _to_si(da, unit):
-    """Linear conversion of a DataArray from its ``units`` attribute to ``unit`` (lazy-safe)."""
-    src = da.attrs.get("units")
-    if src is None:
-        raise ConfigError(f"variable {da.name!r} has no units attribute")
-    a = ureg.Quantity(0.0, src).to(unit).magnitude
-    b = ureg.Quantity(1.0, src).to(unit).magnitude - a
-    return da * b + a if (a, b) != (0.0, 1.0) else da
-
-
 def _cold_limit_kelvin(cold_limit):
     if isinstance(cold_limit, ureg.Quantity):
         return float(cold_limit.to("K").magnitude)
@@ -455,11 +445,11 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
     for name in ("pressure", "temperature", "dewpoint", "height"):
         if name not in profiles:
             raise ConfigError(f"profile has no {name!r} variable")
-    inputs = [_to_si(profiles["pressure"], "Pa"), _to_si(profiles["temperature"], "K"),
-              _to_si(profiles["dewpoint"], "K"), _to_si(profiles["height"], "m")]
+    inputs = [dataarray_to_unit(profiles["pressure"], "Pa"), dataarray_to_unit(profiles["temperature"], "K"),
+              dataarray_to_unit(profiles["dewpoint"], "K"), dataarray_to_unit(profiles["height"], "m")]
     has_model = "cloud_liquid" in profiles and bool(np.isfinite(profiles["cloud_liquid"]).any())
     if has_model:
-        inputs.append(_to_si(profiles["cloud_liquid"], "kg/m^3"))
+        inputs.append(dataarray_to_unit(profiles["cloud_liquid"], "kg/m^3"))
     names = LEVEL_OUTPUTS + PROFILE_OUTPUTS
 
     def core(*arrs):

@@ -28,7 +28,7 @@ import xarray as xr
 from . import CAUTION, thermo
 from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
 from .errors import ConfigError, IcingError
-from .units import KT
+from .units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
            "grid_main", "add_grid_parser", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
@@ -174,18 +174,6 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
 
 # --- xarray / dask layer ------------------------------------------------------------------------------
 
-def _si(da, unit):
-    """Linear conversion of a (lazy) DataArray from its ``units`` attribute to ``unit``."""
-    from .units import ureg
-
-    src = da.attrs.get("units")
-    if src is None:
-        raise ConfigError(f"model variable {da.name!r} has no units attribute")
-    a = ureg.Quantity(0.0, src).to(unit).magnitude
-    b = ureg.Quantity(1.0, src).to(unit).magnitude - a
-    return da if (a, b) == (0.0, 1.0) else da * b + a
-
-
 def _aircraft(aircraft, airspeed_kt=None):
     if aircraft is None:
         return None, None, None
@@ -237,11 +225,11 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(CLOUD_DEFAULTS)}")
     ck = float(cold_limit) + thermo.T0
     ac, tas, diam = _aircraft(aircraft, airspeed_kt)
-    inputs = [_si(model["pressure"], "Pa"), _si(model["temperature"], "K"), _si(model["dewpoint"], "K"),
-              _si(model["height"], "m")]
+    inputs = [dataarray_to_unit(model[name], unit)
+              for name, unit in (("pressure", "Pa"), ("temperature", "K"), ("dewpoint", "K"), ("height", "m"))]
     has_cl = "cloud_liquid" in model
     if has_cl:
-        inputs.append(_si(model["cloud_liquid"], "kg/m^3"))
+        inputs.append(dataarray_to_unit(model["cloud_liquid"], "kg/m^3"))
     level_names = list(LEVEL_OUTPUTS) + (list(ACCRETION_OUTPUTS) if ac is not None else [])
     column_names = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS[:4]) + (list(SUMMARY_OUTPUTS[4:]) if ac else [])
     names = level_names + column_names

@@ -13,7 +13,8 @@ from metpy.units import units as ureg
 
 from .errors import UnitError
 
-__all__ = ["ureg", "Quantity", "to_si", "parse_unit", "parse_altitude", "parse_speed", "FT", "KT", "NMI"]
+__all__ = ["ureg", "Quantity", "to_si", "dataarray_to_unit", "parse_unit", "parse_altitude", "parse_speed", "FT", "KT",
+           "NMI"]
 
 Quantity = ureg.Quantity
 
@@ -81,6 +82,28 @@ def to_si(value, unit: str, name: str = "value", default_unit: str | None = None
     if default_unit is None:
         raise UnitError(f"{name}: a pint Quantity is needed (for example 250 * units.knot), got a plain number")
     return np.asarray(Quantity(np.asarray(value, dtype=float), default_unit).to(unit).magnitude, dtype=float)
+
+
+def dataarray_to_unit(da, unit: str):
+    """A (possibly dask-backed) DataArray converted from its ``units`` attribute to ``unit``.
+
+    Only linear conversions (a scale and an offset, as degC to K or hPa to Pa), applied lazily; the
+    DataArray comes back unchanged when no conversion is needed.
+
+    Raises
+    ------
+    UnitError
+        If the DataArray has no ``units`` attribute or its unit does not convert to ``unit``.
+    """
+    src = da.attrs.get("units")
+    if src is None:
+        raise UnitError(f"variable {da.name!r} has no units attribute")
+    try:
+        a = Quantity(0.0, src).to(unit).magnitude
+        b = Quantity(1.0, src).to(unit).magnitude - a
+    except Exception as exc:
+        raise UnitError(f"variable {da.name!r}: cannot convert {src!r} to {unit}") from exc
+    return da if (a, b) == (0.0, 1.0) else da * b + a
 
 
 _FL = re.compile(r"^\s*FL\s*(\d{1,3})\s*$", re.IGNORECASE)
