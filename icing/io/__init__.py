@@ -24,6 +24,22 @@ _READERS = ["netcdf", "bufr", "igra", "temp", "table"]
 FORMATS = tuple(_READERS)
 
 
+def file_bytes(path, reader: str, options=None) -> bytes:
+    """The bytes of a sounding file for a reader, after refusing options it does not know.
+
+    Raises
+    ------
+    SoundingFormatError
+        Unknown reader options, or a file that cannot be read (naming the file and the reason).
+    """
+    if options:
+        raise SoundingFormatError(f"unknown {reader} reader option(s): {', '.join(options)}", file=path)
+    try:
+        return Path(path).read_bytes()
+    except OSError as exc:
+        raise SoundingFormatError(f"cannot read: {exc.strerror}", file=path) from exc
+
+
 def _module(name):
     return importlib.import_module(f"{__name__}.{name}")
 

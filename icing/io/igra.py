@@ -32,6 +32,7 @@ import pandas as pd
 
 from ..errors import ProfileQualityError, SoundingFormatError
 from ..profile import build_profile
+from . import file_bytes
 
 __all__ = ["FORMAT", "sniff", "read", "decode_igra", "MISSING", "REMOVED"]
 
@@ -223,12 +224,7 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
 def read(path, start=None, end=None, **options) -> list:
     """Every sounding of an IGRA v2 station file (or those with start <= time <= end) as profiles."""
     path = Path(path)
-    if options:
-        raise SoundingFormatError(f"unknown IGRA reader option(s): {', '.join(options)}", file=path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise SoundingFormatError(f"cannot read: {exc.strerror}", file=path) from exc
+    raw = file_bytes(path, "IGRA", options)
     try:
         text = raw.decode("ascii")
     except UnicodeDecodeError as exc:

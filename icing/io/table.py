@@ -27,6 +27,7 @@ import numpy as np
 from ..errors import ProfileQualityError, SoundingFormatError, UnitError
 from ..profile import VARIABLES, build_profile, check_temperature_unit
 from ..units import Quantity, parse_unit
+from . import file_bytes
 
 FORMAT = "table"
 
@@ -95,10 +96,7 @@ def read(path, **options):
         Empty or binary file, no header, no pressure or temperature column, unknown unit, text in a number
         field, a row with too many cells, a temperature column in kelvin labelled degC.
     """
-    try:
-        raw = open(path, "rb").read()
-    except OSError as exc:
-        raise SoundingFormatError(f"cannot open: {exc.strerror}", file=path) from exc
+    raw = file_bytes(path, "table")
     if b"\x00" in raw[:8192]:
         raise SoundingFormatError("binary file, not a delimited text table", file=path, line=1)
     try:

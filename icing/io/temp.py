@@ -31,6 +31,7 @@ import pandas as pd
 
 from ..errors import ProfileQualityError, SoundingFormatError
 from ..profile import build_profile
+from . import file_bytes
 
 __all__ = ["FORMAT", "sniff", "read", "decode_temp", "decode_temp_arrays", "read_stations",
            "decode_temperature", "decode_dewpoint_depression", "decode_wind", "decode_standard_height"]
@@ -873,12 +874,7 @@ def read(path, stations=None, reference_time=None, **options) -> list:
     A ``stations.csv`` next to the file is used when ``stations`` is not given.
     """
     path = Path(path)
-    if options:
-        raise SoundingFormatError(f"unknown TEMP reader option(s): {', '.join(options)}", file=path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise SoundingFormatError(f"cannot read: {exc.strerror}", file=path) from exc
+    raw = file_bytes(path, "TEMP", options)
     if b"\x00" in raw:
         raise SoundingFormatError("binary data in a TEMP text file", file=path)
     text = raw.decode("latin-1")
