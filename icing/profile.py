@@ -242,26 +242,24 @@ def build_profile(pressure, temperature, *, height=None, dewpoint=None, relative
         # RH from a reported dewpoint is how radiosonde reports give humidity: not a quality flag.
         d["relative_humidity"][need_rh] = 100.0 * thermo.relative_humidity_water(
             tk[need_rh], d["dewpoint"][need_rh] + thermo.T0)
-    _check_and_fill_heights(d, fl, rec2, elevation, log)
+    _check_and_fill_heights(d, fl, rec2, elevation)
     return _to_dataset(d, fl, present, station=station, latitude=latitude, longitude=longitude,
                        elevation=elevation, time=time, source=source, format=format, quality=log)
 
 
-def _check_and_fill_heights(d, fl, record, elevation, log):
+def _check_and_fill_heights(d, fl, record, elevation):
     """Remove heights that do not increase upward, then fill missing heights hypsometrically."""
     z = d["height"]
     p_pa = d["pressure"] * 100.0
-    top = -np.inf
-    for j in range(z.size):
-        if not np.isfinite(z[j]):
-            continue
-        if z[j] <= top:
-            record(j, "removed", f"height {z[j]:.0f} m does not increase above the level below ({top:.0f} m)",
-                   "height")
-            z[j] = np.nan
-            fl[j] |= QC_FLAGS["value_removed"]
-        else:
-            top = z[j]
+    # The highest finite height below each level (a removed height never exceeds it, so this equals the
+    # highest height kept below).
+    below = np.concatenate([[-np.inf], np.maximum.accumulate(np.where(np.isfinite(z), z, -np.inf))[:-1]])
+    bad = np.isfinite(z) & (z <= below)
+    for j in np.flatnonzero(bad):
+        record(j, "removed", f"height {z[j]:.0f} m does not increase above the level below ({below[j]:.0f} m)",
+               "height")
+    z[bad] = np.nan
+    fl[bad] |= QC_FLAGS["value_removed"]
     missing = ~np.isfinite(z)
     if not missing.any():
         return
@@ -279,10 +277,8 @@ def _check_and_fill_heights(d, fl, record, elevation, log):
         z[:] = rel + thermo.standard_atmosphere_height(p_pa[0])
         how = "hypsometric equation anchored at the standard-atmosphere height of the first level"
     fl[missing] |= QC_FLAGS["height_filled"]
-    n_fill = int(missing.sum())
     for j in np.flatnonzero(missing):
         record(j, "filled", f"height {z[j]:.0f} m computed by the {how}", "height")
-    del n_fill
 
 
 def _to_dataset(d, flags, present, *, station, latitude, longitude, elevation, time, source, format, quality):
