@@ -104,11 +104,9 @@ def _accrete(atm, tas_ms, body_diameter_m):
     t_k = atm["temperature"] + thermo.T0
     lwc = np.where(np.isfinite(atm["lwc"]), atm["lwc"], 0.0)
     supercooled = (lwc > 0) & (atm["temperature"] < 0.0) & (np.nan_to_num(atm["supercooled"]) > 0.0)
-    lwc = np.where(supercooled, lwc, 0.0)
-    mvd = np.where(supercooled & np.isfinite(atm["mvd"]), atm["mvd"], 20.0)  # unused where lwc == 0
-    p = np.where(np.isfinite(atm["pressure"]), atm["pressure"], 50000.0)
-    t_safe = np.where(np.isfinite(t_k), t_k, 263.15)
-    core = accretion_core(lwc / 1000.0, mvd * 1e-6, tas_ms, t_safe, p, np.full_like(lwc, body_diameter_m))
+    lwc = np.where(supercooled, lwc, 0.0)  # zero LWC is a known no-ice answer whatever the other inputs
+    core = accretion_core(lwc / 1000.0, atm["mvd"] * 1e-6, tas_ms, t_k, atm["pressure"],
+                          np.full_like(lwc, body_diameter_m))
     # A NaN thickness rate (inputs the model cannot use) stays unknown; it is never read as no ice.
     rate = np.where(supercooled, core["thickness_rate"], 0.0) * 1000.0 * 3600.0  # mm/h
     ice = np.clip(np.where(supercooled, np.asarray(core["ice_type"]), 0), 0, 3).astype(np.int8)
