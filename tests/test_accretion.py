@@ -207,12 +207,15 @@ def test_intensity_thresholds():
 
 # ------------------------------------------------------------------------------------- edges and units
 def test_zero_lwc_and_warm_air_give_zero():
+    """Zero LWC or air at or above 0 degC gives zero accretion even with other inputs unknown (Makkonen 2000:
+    dM/dt is proportional to w; no freezing above 0 degC)."""
     r = acc.accretion_core([0.0, 1e-3, 1e-3], [20e-6, 20e-6, np.nan], 100.0, [T0 - 10, T0, T0 + 5], 8e4, 0.03)
     assert np.all(r["mass_rate"] == 0.0) and np.all(r["thickness_rate"] == 0.0)
     assert np.all(r["ice_type"] == 0)
 
 
 def test_nan_is_unknown_not_zero():
+    """A missing input that decides the answer gives NaN, never zero (project rule: unknown is never safe)."""
     r = acc.accretion_core([np.nan, 1e-3, 1e-3], [20e-6, np.nan, 20e-6], 100.0, [T0 - 10, T0 - 10, np.nan],
                            8e4, 0.03)
     assert np.all(np.isnan(r["mass_rate"])) and np.all(np.isnan(r["thickness_rate"]))

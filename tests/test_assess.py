@@ -99,6 +99,7 @@ def test_hand_check_rime_segment(source):
 
 
 def test_segment_totals_are_sample_sums(source):
+    """Segment totals are the sums of their samples (internal consistency of the aggregation)."""
     res = assess_route(level([(50.0, -20.0), (50.6, -18.5), (51.0, -17.0)], "FL080"), source, "turboprop")
     for k, row in res.segments.iterrows():
         leg = res.samples[res.samples["leg"] == k]

@@ -64,6 +64,7 @@ def test_climb_then_cruise_and_descent_to_arrive():
 
 
 def test_times_at_waypoints_fix_the_speed():
+    """Times given at both ends of a leg fix its flight time exactly (kinematics)."""
     r = Route([Waypoint("A", 52.0, -34.0, 10000.0, True, time=pd.Timestamp("2026-01-15T06:00Z")),
                Waypoint("B", 53.0, -31.0, 10000.0, True, time=pd.Timestamp("2026-01-15T07:00Z"))])
     tr = trajectory(r, PLANE)

@@ -56,6 +56,8 @@ def test_accretion_grows_with_exposure_time(w, d, v, t, p, dd, minutes, more):
 @SETTINGS
 @given(d=mvd, v=speed, t=st.floats(T0, T0 + 30.0), p=pres, dd=diam, w=lwc)
 def test_zero_above_freezing_or_without_water(d, v, t, p, dd, w):
+    """No ice grows in air at or above 0 degC or without liquid water (Makkonen 2000: dM/dt is proportional to
+    w; freezing needs a sub-freezing surface, Messinger 1953)."""
     warm = acc.accretion_core(w, d, v, t, p, dd)
     dry = acc.accretion_core(0.0, d, v, t - 20.0, p, dd)
     for r in (warm, dry):
@@ -76,6 +78,7 @@ def test_nan_in_nan_out(w, d, v, t, p, dd, which):
 @SETTINGS
 @given(w=lwc, d=mvd, v=speed, t=temp, p=pres, dd=diam)
 def test_core_equals_quantity_wrappers(w, d, v, t, p, dd):
+    """The Quantity wrappers give the SI core's numbers (internal consistency, no physics source)."""
     r = acc.accretion_core(w, d, v, t, p, dd)
     q = dict(droplet_diameter=d * 1e6 * ureg.um, airspeed=v * 3600 / 1852 * ureg.knot, body_diameter=dd * 100 * ureg.cm,
              temperature=(t - T0) * ureg.degC, pressure=p / 100 * ureg.hPa)
@@ -94,6 +97,8 @@ def test_core_equals_quantity_wrappers(w, d, v, t, p, dd):
 @SETTINGS
 @given(w=lwc, d=mvd, v=speed, t=temp, p=pres, dd=diam)
 def test_outputs_in_physical_range(w, d, v, t, p, dd):
+    """Efficiency and freezing fraction stay within 0..1, rates are not negative (definitions in Makkonen 2000;
+    Langmuir and Blodgett 1946)."""
     r = acc.accretion_core(w, d, v, t, p, dd)
     assert 0.0 <= r["collision_efficiency"] <= 1.0 and 0.0 <= r["freezing_fraction"] <= 1.0
     if r["mass_rate"] > 0:
