@@ -97,8 +97,8 @@ def test_core_equals_quantity_wrappers(w, d, v, t, p, dd):
 @SETTINGS
 @given(w=lwc, d=mvd, v=speed, t=temp, p=pres, dd=diam)
 def test_outputs_in_physical_range(w, d, v, t, p, dd):
-    """Efficiency and freezing fraction stay within 0..1, rates are not negative (definitions in Makkonen 2000;
-    Langmuir and Blodgett 1946)."""
+    """Efficiency and freezing fraction stay within 0..1 (definitions, Makkonen 2000); where ice grows its
+    density lies between low-density rime and bubble-free ice (917 kg/m3) and the surface is at or below 0 degC."""
     r = acc.accretion_core(w, d, v, t, p, dd)
     assert 0.0 <= r["collision_efficiency"] <= 1.0 and 0.0 <= r["freezing_fraction"] <= 1.0
     if r["mass_rate"] > 0:
