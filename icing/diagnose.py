@@ -23,7 +23,7 @@ from .errors import ConfigError
 from .units import dataarray_to_unit, ureg
 
 __all__ = ["diagnose_arrays", "diagnose", "DEFAULT_COLD_LIMIT_C", "LEVEL_OUTPUTS", "PROFILE_OUTPUTS",
-           "THREADS_ENV"]
+           "THREADS_ENV", "ENGINE_ENV", "FUSED_MIN_POINTS"]
 
 DEFAULT_COLD_LIMIT_C = -40.0
 LEVEL_OUTPUTS = ("rh_water", "rh_ice", "in_cloud", "supercooled", "liquid_fraction", "lwc", "mvd", "large_drop",
@@ -32,11 +32,15 @@ PROFILE_OUTPUTS = ("precipitation_type", "freezing_level_count")
 _BLOCK = 2048  # profiles per block
 _WORKERS = min(4, os.cpu_count() or 1)  # block threads of a call from the main thread (see _thread_count)
 THREADS_ENV = "ICING_DIAGNOSE_THREADS"
+ENGINE_ENV = "ICING_ENGINE"
+FUSED_MIN_POINTS = 20_000  # level-points: below this the numba kernels' first load costs more than they save
 _MODEL_CLOUD_MIN = 1e-5  # kg/m3 (0.01 g/m3): model cloud liquid above this is cloud (common practice)
 
 
 def _fill_gaps(p, v):
     """Fill interior NaNs of v (P, n) linearly in ln p from the nearest finite levels; ends stay NaN."""
+    if np.isfinite(v).all():  # the common case of model grids: one pass, no temporaries kept
+        return v
     bad = ~np.isfinite(v) & np.isfinite(p)
     rows = np.flatnonzero(bad.any(axis=-1))
     if rows.size == 0:
@@ -184,7 +188,7 @@ def _check_params(params):
 
 
 def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, *, cold_limit=233.15,
-                    airmass="continental", threads=None, **thresholds):
+                    airmass="continental", threads=None, engine=None, **thresholds):
     """Icing diagnostics level by level for profiles of shape (..., level), plain SI in and out.
 
     Parameters
@@ -204,6 +208,11 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
         environment variable ``ICING_DIAGNOSE_THREADS`` if set, else 1 when called from a thread other than
         the main one (a dask or distributed worker, whose own pool already fills the cores), else up to 4
         (the CPU count). The results do not depend on it.
+    engine : {"auto", "numpy", "numba"}, optional
+        ``"numpy"``: the whole-array numpy chain; ``"numba"``: the same chain fused into one compiled pass per
+        column (:mod:`icing.fused`, needs numba); ``"auto"`` (default, or the ``ICING_ENGINE`` environment
+        variable): numba for inputs of at least ``FUSED_MIN_POINTS`` level-points when it is installed. Both
+        give the same results (flags equal, numbers to rounding; ``tests/test_fused.py``).
     **thresholds
         Any of :data:`icing.layers.CLOUD_DEFAULTS`.
 
@@ -230,6 +239,35 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     freezing rain where melted precipitation falls into sub-freezing air, freezing drizzle under warm-topped
     supercooled cloud.
     """
+    return _chain(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit, airmass=airmass,
+                  threads=threads, engine=engine, summaries=False, thresholds=thresholds)[0]
+
+
+def _engine(engine, npoints):
+    """Whether the fused numba engine runs: ``engine`` (or ``ICING_ENGINE``) and the input size decide."""
+    from . import fused
+
+    if engine is None:
+        engine = os.environ.get(ENGINE_ENV, "").strip().lower() or "auto"
+    if engine not in fused.ENGINES:
+        raise ConfigError(f"engine {engine!r} is not one of {', '.join(fused.ENGINES)}")
+    if engine == "numpy":
+        return False
+    if engine == "numba":
+        if not fused.available():
+            raise ConfigError("engine 'numba' needs the numba package (pip install numba, or 'icing[scale]')")
+        return True
+    return npoints >= FUSED_MIN_POINTS and fused.available()
+
+
+_SUMMARY_KEYS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", "supercooled_top_m")
+
+
+def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit, airmass, threads, engine,
+           summaries, thresholds):
+    """:func:`diagnose_arrays`; with ``summaries`` and the fused engine on pressure-sorted input, the column
+    summaries of :func:`icing.grid.column_summaries` too (computed in the same pass). Returns (results,
+    whether the fused engine ran)."""
     prm = _check_params(thresholds)
     workers = _thread_count(threads)
     cold_limit = microphysics.check_cold_limit(cold_limit)
@@ -255,14 +293,39 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     t = _fill_gaps(p, t_raw)
     td = np.minimum(_fill_gaps(p, td_raw), t)
     z = _fill_gaps(p, z_raw)
+    use_fused = _engine(engine, p.shape[0] * n)
+    with_summaries = bool(summaries and use_fused and sorted_already)
+    starts = range(0, max(p.shape[0], 1), _BLOCK)
+    if use_fused:
+        from . import fused
+
+        cap = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop)) \
+            if prm["stratiform_cap"] else None
+        out = fused.empty_outputs(p.shape[0], n, with_summaries)
+
+        def fused_block(i):  # writes into its rows of ``out`` (the kernel releases the GIL)
+            sl = slice(i, i + _BLOCK)
+            fused.diagnose_block(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
+                                 t_raw[sl], z_raw[sl], cold_limit, n_drop, airmass, prm, cap,
+                                 summaries=with_summaries, out={k: v[sl] for k, v in out.items()})
+
+        if workers > 1 and len(starts) > 1:
+            with ThreadPoolExecutor(min(workers, len(starts))) as pool:
+                list(pool.map(fused_block, starts))
+        else:
+            for i in starts:
+                fused_block(i)
+        out["valid"] = valid
+
     # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles).
     def block(i):
         sl = slice(i, i + _BLOCK)
         return _diagnose_sorted(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
                                 cold_limit, n_drop, airmass, prm)
 
-    starts = range(0, max(p.shape[0], 1), _BLOCK)
-    if len(starts) == 1:
+    if use_fused:
+        pass  # done above
+    elif len(starts) == 1:
         out = block(0)
     else:
         first = block(0)
@@ -283,7 +346,9 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
                 store(i, block(i))
     result = {}
     for name, arr in out.items():
-        if arr.ndim == 2:
+        if name in _SUMMARY_KEYS:
+            result[name] = arr.reshape(lead + arr.shape[1:])
+        elif arr.ndim == 2:
             if not sorted_already:
                 back = np.empty_like(arr)
                 np.put_along_axis(back, order, arr, axis=-1)
@@ -291,7 +356,7 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
             result[name] = arr.reshape(lead + (n,))
         else:
             result[name] = arr.reshape(lead)
-    return result
+    return result, use_fused
 
 
 def _diagnose_sorted(p, t, td, z, cl, valid, cold_limit, n_drop, airmass, prm):

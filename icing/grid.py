@@ -26,7 +26,7 @@ import numpy as np
 import xarray as xr
 
 from . import CAUTION, thermo
-from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
+from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS
 from .errors import ConfigError, IcingError
 from .units import KT, dataarray_to_unit
 
@@ -118,7 +118,7 @@ def _quiet_nan():
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
-              cold_limit=233.15, airmass="continental", **thresholds):
+              cold_limit=233.15, airmass="continental", engine=None, **thresholds):
     """The whole chain on a block of columns, plain SI numpy in and out (shape (..., level)).
 
     Parameters
@@ -128,6 +128,9 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     airspeed, body_diameter : float, optional
         True airspeed (m/s) and reference-body diameter (m) for the accretion potential; without them only
         the diagnostics and the freezing-level/supercooled summaries are computed.
+    engine : {"auto", "numpy", "numba"}, optional
+        As :func:`icing.diagnose.diagnose_arrays`; the fused engine also computes the column summaries and the
+        intensity codes and column maxima of the accretion potential (same results).
 
     Returns
     -------
@@ -138,12 +141,15 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
         codes of :func:`icing.accretion.intensity_code` and :func:`icing.accretion.ice_type_code`; -1 unknown),
         ``max_potential_intensity`` and ``max_potential_rate`` per column.
     """
+    from .diagnose import _chain
+
     shape = np.broadcast_shapes(*(np.shape(a) for a in (pressure, temperature, dewpoint, height)))
-    d = diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit,
-                        airmass=airmass, **thresholds)
+    d, fused = _chain(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit, airmass=airmass,
+                      threads=None, engine=engine, summaries=True, thresholds=thresholds)
     z = np.broadcast_to(np.asarray(height, dtype=float), shape)
     t = np.broadcast_to(np.asarray(temperature, dtype=float), shape)
-    d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
+    if "freezing_level_m" not in d:  # the numpy engine, or levels not in pressure order
+        d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
     if airspeed is None:
         return d
     from .accretion import accretion_core, intensity_code
@@ -159,15 +165,24 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
                               t.ravel()[idx], p, float(body_diameter))
         rate.ravel()[idx] = core["thickness_rate"]
         ice.ravel()[idx] = core["ice_type"]
-    code = intensity_code(rate).astype(np.int8)
-    first = np.argmax(valid, axis=-1)[..., None]
-    above_first = np.arange(shape[-1]) >= first
-    unknown_aloft = np.any(~valid & above_first, axis=-1)
-    worst = code.max(axis=-1)
-    worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
-    with _quiet_nan():
-        max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
-    d.update({"potential_rate": rate * 1000.0 * 3600.0, "potential_intensity": code, "ice_type": ice,
+    if fused:
+        from .fused import potential_summary
+
+        n = shape[-1]
+        code, worst, max_rate = potential_summary(rate.reshape(-1, n), valid.reshape(-1, n))
+        code, worst, max_rate = code.reshape(shape), worst.reshape(shape[:-1]), max_rate.reshape(shape[:-1])
+    else:
+        code = intensity_code(rate).astype(np.int8)
+        first = np.argmax(valid, axis=-1)[..., None]
+        above_first = np.arange(shape[-1]) >= first
+        unknown_aloft = np.any(~valid & above_first, axis=-1)
+        worst = code.max(axis=-1)
+        worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
+        with _quiet_nan():
+            max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
+    rate *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
+    rate *= 3600.0
+    d.update({"potential_rate": rate, "potential_intensity": code, "ice_type": ice,
               "max_potential_intensity": worst, "max_potential_rate": max_rate})
     return d
 
@@ -185,7 +200,7 @@ def _aircraft(aircraft, airspeed_kt=None):
 
 
 def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental",
-                  airspeed_kt=None, **thresholds) -> xr.Dataset:
+                  airspeed_kt=None, engine=None, **thresholds) -> xr.Dataset:
     """Diagnostics, summaries and (with an aircraft) the accretion potential of a whole gridded profile Dataset.
 
     Parameters
@@ -199,6 +214,9 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         Coldest supercooled liquid, degC (default -40).
     airmass, thresholds :
         As :func:`icing.diagnose.diagnose`.
+    engine : {"auto", "numpy", "numba"}, optional
+        As :func:`icing.diagnose.diagnose_arrays` (per chunk): numba's fused kernel when installed, for chunks
+        of at least :data:`icing.diagnose.FUSED_MIN_POINTS` level-points; the same results either way.
 
     Returns
     -------
@@ -236,7 +254,7 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
 
     def core(*arrs):
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
-                        cold_limit=ck, airmass=airmass, **thresholds)
+                        cold_limit=ck, airmass=airmass, engine=engine, **thresholds)
         return tuple(out[k] for k in names)
 
     core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []
@@ -256,6 +274,9 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     ds.attrs.update({"cold_limit": float(cold_limit), "cold_limit_units": "degC", "airmass": str(airmass),
                      "lwc_source": "model cloud liquid" if has_cl else "adiabatic", "caution": CAUTION,
                      "quality": list(model.attrs.get("quality", []))})
+    from .diagnose import _engine
+
+    _engine(engine, 0)  # an unknown engine, or numba asked for and missing, fails now rather than in a worker
     if ac is not None:
         ds.attrs.update({"aircraft": str(getattr(ac, "name", aircraft)), "airspeed_kt": tas / KT,
                          "body_diameter_m": diam})
@@ -396,6 +417,8 @@ def add_grid_parser(subparsers):
     where = gp.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, metavar="N", help="run on a dask LocalCluster of N processes")
     where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster")
+    gp.add_argument("--engine", choices=["auto", "numpy", "numba"], default=None,
+                    help="numpy arrays, or numba's fused kernel (same results; default auto: numba if installed)")
     gp.add_argument("--quiet", action="store_true", help="no progress bar")
     return gp
 
@@ -424,7 +447,7 @@ def grid_main(args) -> int:
         raise IcingError("--workers must be at least 1")
     model = open_fields(args.fields, args.chunk_points)
     ds = diagnose_grid(model, args.aircraft, cold_limit=args.cold_limit, airmass=args.airmass,
-                       airspeed_kt=args.airspeed)
+                       airspeed_kt=args.airspeed, engine=args.engine)
     names = None
     if args.summary_only:
         names = [n for n in ds.data_vars if "level" not in ds[n].dims]
