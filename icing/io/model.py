@@ -29,6 +29,15 @@ pressure levels in Pa or hPa. Every change is listed in the ``quality`` attribut
 units, derived quantities, the range checks of :mod:`icing.profile` (temperature outside -100..60 degC and
 relative humidity above 105 % set missing, 100-105 % set to 100 %) and levels below the ground (pressure above
 the surface pressure, where a surface pressure is given) set missing. Missing stays NaN: it is never "no cloud".
+
+GRIB2 (through cfgrib, tested with cfgrib 0.9.15 and ecCodes 2.50 on files written by ecCodes): only messages
+with ``typeOfLevel=isobaricInhPa`` are read; cfgrib writes no ``*.idx`` index file; a corrupted message, or a
+field whose levels or times do not fit the others (which cfgrib by default only logs and leaves out), is an
+error. Reference time x forecast step become one dimension of valid times (a valid time given twice, as by two
+overlapping runs, is an error); one pressure level gives a ``level`` dimension of size 1. Latitudes and
+longitudes of a regular_ll grid are rebuilt from the GRIB grid definition and scanning mode, because cfgrib
+labels grids scanned east to west, or written across Greenwich as 358..1 degrees east, in another order than
+their values.
 """
 
 from __future__ import annotations
@@ -93,7 +102,9 @@ def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
     Raises
     ------
     SoundingFormatError
-        The file is missing, not readable, or lacks temperature, humidity, pressure levels or a valid time.
+        The file is missing, not readable (for GRIB: a corrupted message, fields that do not share one grid of
+        levels, times and points, no isobaric levels, a grid other than regular_ll), or lacks temperature,
+        humidity, pressure levels or a valid time, or gives a valid time twice.
     """
     path = Path(path)
     if not path.exists():
@@ -109,12 +120,7 @@ def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
         except ImportError:
             raise SoundingFormatError("reading GRIB2 needs the optional cfgrib package (pip install "
                                       "'icing[grib]')", file=path) from None
-        try:
-            ds = xr.open_dataset(path, engine="cfgrib", chunks=chunks, decode_timedelta=True,
-                                 backend_kwargs={"filter_by_keys": {"typeOfLevel": "isobaricInhPa"},
-                                                 "indexpath": ""})
-        except Exception as exc:
-            raise SoundingFormatError(f"cannot read as GRIB2: {exc}", file=path) from None
+        ds = _open_grib(path, chunks)
         fmt = FORMAT_GRIB
     else:
         ds = None
@@ -128,7 +134,40 @@ def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
         if ds is None:
             raise SoundingFormatError(f"cannot open as netCDF: {errors[0]}", file=path)
         fmt = FORMAT_NETCDF
-    return normalise_model(ds, source=str(path), format=fmt)
+    try:
+        out = normalise_model(ds, source=str(path), format=fmt)
+        if chunks is None:
+            out = out.load()  # read eagerly, as documented; the file is closed below
+    except Exception:
+        ds.close()
+        raise
+    if chunks is None:
+        ds.close()
+    return out
+
+
+def _open_grib(path, chunks):
+    """The isobaric-level fields of a GRIB file through cfgrib, strictly.
+
+    ``indexpath=""``: cfgrib writes no ``*.idx`` index file next to the user's file. ``errors="raise"``: by
+    default cfgrib only logs a corrupted message, or a field whose levels or times do not fit the others, and
+    leaves it out of the Dataset; here that is an error (nothing is dropped silently).
+    """
+    try:
+        ds = xr.open_dataset(path, engine="cfgrib", chunks=chunks, decode_timedelta=True,
+                             backend_kwargs={"filter_by_keys": {"typeOfLevel": "isobaricInhPa"},
+                                             "indexpath": "", "errors": "raise"})
+    except Exception as exc:  # eccodes and cfgrib raise their own types
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        if type(exc).__name__ == "DatasetBuildError":
+            reason = ("the fields on isobaric levels do not form one grid of levels x times x points (read "
+                      f"by cfgrib: {reason}); split the file by variable or forecast step first")
+        raise SoundingFormatError(f"cannot read as GRIB2: {reason}", file=path) from None
+    if not ds.data_vars:
+        ds.close()
+        raise SoundingFormatError("no GRIB fields on isobaric levels (typeOfLevel isobaricInhPa); only model "
+                                  "fields on pressure levels are read", file=path)
+    return ds
 
 
 # --- helpers -------------------------------------------------------------------------------------------
@@ -198,19 +237,26 @@ def _vertical(ds, source):
                               "pressure_level, plev, level); only fields on pressure levels are read", file=source)
 
 
-def _valid_time(ds, quality):
-    """Fold cfgrib's reference ``time`` x forecast ``step`` into one ``time`` dimension of valid times."""
-    if "step" in ds.dims:
+def _valid_time(ds, quality, source=None):
+    """One ``time`` dimension of valid times, increasing and unique.
+
+    cfgrib gives a reference ``time`` and a forecast ``step`` (each a dimension when the file holds several,
+    else a scalar) and their sum ``valid_time``; several of both are folded into one dimension. A valid time
+    that occurs twice (two runs for the same hour) is an error, as in :func:`icing.grid.open_model`.
+    """
+    if "step" in ds.dims or ("valid_time" in ds.coords and "valid_time" not in ds.dims):
         if "valid_time" not in ds.coords:
             ds = ds.assign_coords(valid_time=ds["time"] + ds["step"])
-        if "time" in ds.dims:
-            ds = ds.stack(_vt=("time", "step"))
-            vt = ds["valid_time"].values
-            ds = ds.drop_vars(["_vt", "time", "step", "valid_time"], errors="ignore")
-            ds = ds.assign_coords(_vt=vt).rename({"_vt": "time"})
+        stack = [d for d in ("time", "step") if d in ds.dims]
+        if len(stack) == 2:
+            ds = ds.stack(_vt=stack)
+        elif stack:
+            ds = ds.rename({stack[0]: "_vt"})
         else:
-            ds = ds.swap_dims({"step": "valid_time"}).drop_vars(["step", "time"], errors="ignore")
-            ds = ds.rename({"valid_time": "time"})
+            ds = ds.expand_dims("_vt")
+        vt = np.atleast_1d(ds["valid_time"].values)
+        ds = ds.drop_vars([n for n in ("_vt", "time", "step", "valid_time") if n in ds.coords])
+        ds = ds.assign_coords(_vt=vt).rename({"_vt": "time"})
         quality.append({"level": None, "action": "changed", "reason": "valid time = reference time + forecast step"})
     elif "valid_time" in ds.dims and "time" not in ds.dims:
         ds = ds.drop_vars(["time"], errors="ignore").rename({"valid_time": "time"})
@@ -220,7 +266,74 @@ def _valid_time(ds, quality):
             return ds
         t = ds[tname].values
         ds = ds.drop_vars([n for n in _TIME_NAMES if n in ds.coords and ds[n].ndim == 0]).expand_dims(time=[t])
+    if "time" in ds.dims:
+        times = ds["time"].values
+        if np.unique(times).size != times.size:
+            _, first, counts = np.unique(times, return_index=True, return_counts=True)
+            raise SoundingFormatError(f"valid time {times[first[counts > 1][0]]} occurs more than once (several "
+                                      "forecast runs?); keep one run per valid time", file=source)
+        if times.size > 1 and np.any(np.diff(times) < np.timedelta64(0, "ns")):
+            ds = ds.sortby("time")
+            quality.append({"level": None, "action": "reordered", "reason": "times sorted to increasing"})
+        ds["time"].attrs = {"standard_name": "time", "long_name": "valid time"}
     return ds
+
+
+def _grib_geography(ds, quality, source):
+    """Latitudes and longitudes of a cfgrib regular_ll Dataset rebuilt from the GRIB grid definition.
+
+    cfgrib labels the grid with ecCodes' sorted ``distinctLongitudes`` / ``distinctLatitudes`` but reshapes the
+    values in scanning order, so a grid scanned east to west (``iScansNegatively=1``) or one written from 358 to
+    1 degrees east gets longitudes that do not belong to its columns (ecmwf/cfgrib issues 236 and 402; seen with
+    cfgrib 0.9.15 and ecCodes 2.50). The first and last grid point, the point counts and the scanning flags
+    (GRIB2 code table 3.4) give the true coordinate of each row and column.
+    """
+    grids = {}
+    for vname, var in ds.data_vars.items():
+        if var.attrs.get("GRIB_gridType") is None:
+            continue
+        if var.attrs["GRIB_gridType"] != "regular_ll":
+            raise SoundingFormatError(f"GRIB field {vname!r} is on a {var.attrs['GRIB_gridType']} grid; only "
+                                      "regular latitude-longitude grids (regular_ll) are read", file=source)
+        keys = ("Nx", "Ny", "latitudeOfFirstGridPointInDegrees", "latitudeOfLastGridPointInDegrees",
+                "longitudeOfFirstGridPointInDegrees", "longitudeOfLastGridPointInDegrees", "iScansNegatively",
+                "jScansPositively", "jPointsAreConsecutive")
+        try:
+            grids[vname] = tuple(float(var.attrs[f"GRIB_{k}"]) for k in keys)
+        except (KeyError, TypeError, ValueError):
+            raise SoundingFormatError(f"GRIB field {vname!r} lacks its grid definition keys", file=source) from None
+    if not grids:
+        return ds
+    if len(set(grids.values())) > 1:
+        raise SoundingFormatError(f"the GRIB fields {', '.join(grids)} are on different grids", file=source)
+    nx, ny, lat0, lat1, lon0, lon1, i_neg, j_pos, j_consecutive = next(iter(grids.values()))
+    nx, ny = int(nx), int(ny)
+    if j_consecutive:
+        raise SoundingFormatError("GRIB grid scanned column by column (jPointsAreConsecutive=1) is not read",
+                                  file=source)
+    if ds.sizes.get("latitude") != ny or ds.sizes.get("longitude") != nx:
+        # a subset of a cfgrib Dataset: the grid definition describes the whole grid, not these points
+        quality.append({"level": None, "action": "note", "reason": f"GRIB grid definition ({nx} x {ny} "
+                        "points) is not the grid given (a subset?): latitudes/longitudes taken as given, not "
+                        "checked against the scanning mode"})
+        return ds
+    # Longitudes run from the first point in the scanning direction; the span is taken modulo 360.
+    span = ((lon0 - lon1) if i_neg else (lon1 - lon0)) % 360.0
+    lon = lon0 + (-1.0 if i_neg else 1.0) * (span / (nx - 1) if nx > 1 else 0.0) * np.arange(nx)
+    lat = lat0 + ((lat1 - lat0) / (ny - 1) if ny > 1 else 0.0) * np.arange(ny)
+    if (j_pos and lat1 < lat0) or (not j_pos and lat1 > lat0):
+        raise SoundingFormatError("GRIB grid: latitudes of the first and last point contradict the scanning "
+                                  "flag jScansPositively", file=source)
+    lon, lat = np.round(lon % 360.0, 6), np.round(lat, 6)
+    old_lon = ds["longitude"].values.astype(float) % 360.0
+    old_lat = ds["latitude"].values.astype(float)
+    same_lon = np.allclose(np.minimum(np.abs(old_lon - lon), 360.0 - np.abs(old_lon - lon)), 0.0, atol=1e-5)
+    if not same_lon or not np.allclose(old_lat, lat, atol=1e-5):
+        quality.append({"level": None, "action": "changed", "reason": "GRIB latitudes/longitudes rebuilt from "
+                        "the grid definition and scanning mode (cfgrib's coordinates were in another order)"})
+    attrs = {"units": "degrees_east", "standard_name": "longitude"}
+    return ds.assign_coords(longitude=("longitude", lon, attrs),
+                            latitude=("latitude", lat, {"units": "degrees_north", "standard_name": "latitude"}))
 
 
 def _normalise_longitude(lon):
@@ -244,7 +357,11 @@ def normalise_model(ds: xr.Dataset, *, source="", format=FORMAT_NETCDF) -> xr.Da
     """
     quality = []
     src = source or None
-    ds = _valid_time(ds, quality)
+    ds = _valid_time(ds, quality, src)
+    ds = _grib_geography(ds, quality, src)
+    for name in ("isobaricInhPa", "pressure_level", "plev"):
+        if name in ds.coords and ds[name].ndim == 0:  # one level (cfgrib: a scalar coordinate)
+            ds = ds.expand_dims(name)
     zname = _vertical(ds, src)
     latn = _coord_name(ds, "latitude", _LAT_NAMES, ("degrees_north", "degree_north"))
     lonn = _coord_name(ds, "longitude", _LON_NAMES, ("degrees_east", "degree_east"))
