@@ -155,23 +155,41 @@ def main(argv=None):
     print(f"numpy pass (memory bandwidth): {bw_rate / 1e6:8.1f} M level-points/s ({bytes_moved / dt_bw / 1e9:.1f} "
           "GB/s)")
 
+    from icing import fused
+
+    engines = ["numpy"] + (["numba"] if fused.available() else [])
+    if fused.available():
+        fused._kernels()  # load (or compile once) the kernels before any clock starts
     one = eager.isel(time=slice(0, 1))
     p = one["pressure"].values * 100.0
     tk, tdk, zz = (one[k].values for k in ("temperature", "dewpoint", "height"))
-    dt_eager = _timed(lambda: grid_core(p, tk + 273.15, tdk + 273.15, zz, airspeed=AIRCRAFT.tas_cruise_kt * 0.514444,
-                                        body_diameter=AIRCRAFT.body_diameter_m), 2)
-    eager_rate = tk.size / dt_eager
-    print(f"chain, eager numpy (no dask):  {eager_rate / 1e6:8.2f} M level-points/s (one time; diagnose_arrays' own "
-          "block threads)")
+    eager_out = {}
+    for engine in engines:
+        def run(engine=engine):
+            eager_out[engine] = grid_core(p, tk + 273.15, tdk + 273.15, zz, airspeed=AIRCRAFT.tas_cruise_kt * 0.514444,
+                                          body_diameter=AIRCRAFT.body_diameter_m, engine=engine)
 
+        dt_eager = _timed(run, 2)
+        print(f"chain, eager, {engine} engine:  {tk.size / dt_eager / 1e6:8.2f} M level-points/s (one time, no dask; "
+              "diagnose_arrays' own block threads)")
     summaries = ["max_potential_intensity", "max_potential_rate", "freezing_level_m", "supercooled_top_m"]
+    if len(engines) == 2:
+        a, b = eager_out["numpy"], eager_out["numba"]
+        agree = all(np.array_equal(a[k], b[k]) if a[k].dtype.kind != "f" else
+                    np.allclose(a[k], b[k], rtol=1e-9, atol=1e-9, equal_nan=True) for k in a)
+        print(f"engines agree on every output (flags equal, numbers to 1e-9): {agree}")
+
     side = max(int(np.sqrt(args.points / LEVELS.size)), 1)
     lazy_in = eager.chunk({"time": 1, "latitude": side, "longitude": side, "level": -1})
-    res = diagnose_grid(lazy_in, AIRCRAFT)[summaries]
-    with dask.config.set(scheduler="threads"):
-        dt_thr = _timed(lambda: res.compute(), 2)
-    thr_rate = nlp / dt_thr
-    print(f"chain, dask threaded:          {thr_rate / 1e6:8.2f} M level-points/s ({dt_thr:.1f} s)")
+    thr_rate = {}
+    for engine in engines:
+        res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine)[summaries]
+        with dask.config.set(scheduler="threads"):
+            dt_thr = _timed(lambda res=res: res.compute(), 2)
+        thr_rate[engine] = nlp / dt_thr
+        print(f"chain, dask threaded, {engine}:  {thr_rate[engine] / 1e6:8.2f} M level-points/s ({dt_thr:.1f} s)")
+    engine = engines[-1]
+    res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine)[summaries]
 
     from distributed import wait
 
@@ -181,12 +199,15 @@ def main(argv=None):
         gen = synthetic_model(args.times, lat, lon, points=args.points, lazy=True)
         gen = gen.persist()
         wait([gen[k].data for k in ("temperature", "dewpoint", "height")])
-        res_d = diagnose_grid(gen, AIRCRAFT)[summaries]
+        res_d = diagnose_grid(gen, AIRCRAFT, engine=engine)[summaries]
         client.run(lambda: __import__("icing.grid"))  # workers import the package before the clock starts
+        if engine == "numba":
+            client.run(lambda: __import__("icing.fused").fused._kernels())  # and load the compiled kernels
         dt_dist = _timed(lambda: client.compute(res_d).result(), 2)
         dist_res = client.compute(res_d).result()
     dist_rate = nlp / dt_dist
-    print(f"chain, distributed ({args.workers} procs): {dist_rate / 1e6:8.2f} M level-points/s ({dt_dist:.1f} s)")
+    print(f"chain, distributed ({args.workers} procs), {engine}: {dist_rate / 1e6:8.2f} M level-points/s "
+          f"({dt_dist:.1f} s)")
     with dask.config.set(scheduler="threads"):
         thr_res = res.compute()
     same = all(np.array_equal(thr_res[k].values, dist_res[k].values, equal_nan=True) for k in summaries)
@@ -195,11 +216,13 @@ def main(argv=None):
     mp_rate = args.metpy_profiles * LEVELS.size / dt_mp
     print(f"MetPy per-profile loop:        {mp_rate / 1e6:8.4f} M level-points/s ({args.metpy_profiles} profiles, "
           "thermodynamics only)")
-    best = max(thr_rate, dist_rate)
+    best = max(thr_rate[engine], dist_rate)
     print()
     print(f"whole chain, best scheduler: {best / 1e6:.2f} M level-points/s = {best / mp_rate:,.0f} x the MetPy loop; "
           f"{best / bw_rate * 100:.1f} % of the numpy memory-bandwidth pass; target 20 M/s: {best / 20e6 * 100:.0f} %")
-    print(f"threaded vs distributed: {thr_rate / dist_rate:.2f} ; results identical: {same}")
+    print(f"threaded vs distributed ({engine}): {thr_rate[engine] / dist_rate:.2f} ; results identical: {same}")
+    if len(engines) == 2:
+        print(f"numba vs numpy engine, dask threaded: {thr_rate['numba'] / thr_rate['numpy']:.2f} x")
 
 
 if __name__ == "__main__":

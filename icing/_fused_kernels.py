@@ -32,9 +32,9 @@ rob2 = types.Array(b1, 2, "A", readonly=True)
 w1, w2, wb2 = types.Array(f8, 1, "C"), types.Array(f8, 2, "C"), types.Array(b1, 2, "C")
 wi8_1, wi8_2, wi64_1 = types.Array(types.int8, 1, "C"), types.Array(types.int8, 2, "C"), \
     types.Array(types.int64, 1, "C")
-block_sig = types.void(ro2, ro2, ro2, ro2, ro2, b1, rob2, ro2, ro2, f8, ro1, ro1, ro1, ro1, ro1, f8, ro1, ro1,
+block_sig = types.void(ro2, ro2, ro2, ro2, ro2, b1, ro2, ro2, ro2, f8, ro1, ro1, ro1, ro1, ro1, f8, ro1, ro1,
                        ro1, ro1, ro1, ro1, ro1, b1, f8, f8, b1, w2, w2, wb2, wb2, w2, w2, w2, wi8_2, wb2, wi8_2,
-                       wi8_1, wi64_1, w1, w2, w1, w1)
+                       wi8_1, wi64_1, w1, w2, w1, w1, wb2)
 potential_sig = types.void(ro2, rob2, f8, f8, f8, f8, wi8_2, wi8_1, w1)
 
 @jit
@@ -157,12 +157,13 @@ def run_bounds(z, zb, s, e, n):  # icing.layers._run_bounds
     return lo, hi
 
 @jit
-def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, heights, min_v, max_v, inter_v, prm,
+def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heights, min_v, max_v, inter_v, prm,
            liquid_rh, tab, tab_ax, inv, inv_ax, lnp_ax, cap_t, cap_v, use_cap, mvd_denom, mvd_ratio,
            want_summary, n, o_rhw, o_rhi, o_cloud, o_sc, o_lf, o_lwc, o_mvd, o_large, o_warm, o_kind,
-           o_lev, o_base, o_top, scr_f, scr_i, scr_b):
-    """One column (level arrays of length n); returns (precipitation type, freezing-level count,
-    lowest freezing level). Scratch arrays: scr_f (12, n) floats, scr_i (6, n) ints, scr_b (8, n) bools."""
+           o_lev, o_base, o_top, o_valid, scr_f, scr_i, scr_b):
+    """One column (level arrays of length n, t/td/z gaps filled, td not yet held to t); returns
+    (precipitation type, freezing-level count, lowest freezing level). Scratch arrays: scr_f (12, n) floats,
+    scr_i (6, n) ints, scr_b (8, n) bools."""
     (min_moist_base, min_moist_thick, min_cloud_base, merge_gap, thin_low, thin_high, low_limit,
      conv_excess, f_strat, f_conv, dz_top_t, dz_min_thick, melt_aloft) = (
         prm[0], prm[1], prm[2], prm[3], prm[4], prm[5], prm[6], prm[7], prm[8], prm[9], prm[10], prm[11],
@@ -180,12 +181,24 @@ def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, height
             break
     if not np.isfinite(z0):
         z0 = z[0]
-    for k in range(n):
+    all_t = True  # every level has a temperature
+    any_t = False
+    any_warm = False
+    any_cold = False
+    humidity_complete = True
+    cloud = o_cloud
+    for k in range(n):  # one pass: humidity, height above ground, the min-RH criterion, level flags
         tk = t[k]
+        tdk = td[k]  # np.minimum(td, t): dewpoint at most the temperature, NaN if either is
+        if tdk != tdk or tk != tk:
+            tdk = np.nan
+        elif tdk > tk:
+            tdk = tk
+        o_valid[k] = np.isfinite(p[k]) and np.isfinite(t_raw[k]) and np.isfinite(td_raw[k])
         lt = np.log(tk)
         lnt[k] = lt
-        ltd = np.log(td[k])
-        ln_e = ln_esw(td[k], ltd)
+        ltd = np.log(tdk)
+        ln_e = ln_esw(tdk, ltd)
         ln_ew = ln_esw(tk, lt)
         ln_ei = 3.53068 * lt
         ln_ei += 9.550426
@@ -195,22 +208,36 @@ def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, height
         ri = math.exp(ln_e - ln_ei) * 100.0
         o_rhw[k] = rw
         o_rhi[k] = ri
-        rhc[k] = ri if tk < T0 else rw
-        zagl[k] = z[k] - z0
-        minrh[k] = interp(zagl[k], heights, min_v)
-    # --- cloud_mask (Zhang et al. 2010)
-    for k in range(n):
-        f[k] = rhc[k] - minrh[k]
-        moist[k] = f[k] >= 0.0
-    for k in range(n - 1):
-        f0 = f[k]
-        f1 = f[k + 1]
-        frac = f0 / (f0 - f1) if (f0 >= 0) != (f1 >= 0) else 0.5
-        frac = clip(frac, 0.0, 1.0)
-        zb[k] = zagl[k] + frac * (zagl[k + 1] - zagl[k])
-    cloud = o_cloud
-    for k in range(n):
+        rc = ri if tk < T0 else rw
+        rhc[k] = rc
+        za = z[k] - z0
+        zagl[k] = za
+        mr = interp(za, heights, min_v)
+        minrh[k] = mr
+        # cloud_mask: the min-RH criterion and its crossing height inside each interval (layers._boundaries)
+        fk = rc - mr
+        f[k] = fk
+        moist[k] = fk >= 0.0
+        if k > 0:
+            f0 = f[k - 1]
+            frac = f0 / (f0 - fk) if (f0 >= 0) != (fk >= 0) else 0.5
+            frac = clip(frac, 0.0, 1.0)
+            zb[k - 1] = zagl[k - 1] + frac * (za - zagl[k - 1])
         cloud[k] = False
+        o_kind[k] = 0
+        dz_src[k] = False
+        model[k] = False
+        ft = np.isfinite(tk)
+        fin[k] = ft
+        wk = ft and tk > T0
+        warm[k] = wk
+        all_t = all_t and ft
+        any_t = any_t or ft
+        any_warm = any_warm or wk
+        any_cold = any_cold or (ft and not wk)
+        if ft and not np.isfinite(rw):
+            humidity_complete = False
+    # --- cloud_mask (Zhang et al. 2010)
     nr = runs(moist, n, starts, ends)
     for r in range(nr):
         s, e = starts[r], ends[r]
@@ -258,17 +285,14 @@ def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, height
             for k in range(s, e + 1):
                 cloud[k] = False
     # --- model cloud liquid, and cloud only where a temperature is known
-    for k in range(n):
-        model[k] = has_cl and np.isfinite(cl[k])
-        if model[k] and cl[k] >= MODEL_CLOUD_MIN:
-            cloud[k] = True
-        cloud[k] = cloud[k] and np.isfinite(t[k])
+    if has_cl or not all_t:
+        for k in range(n):
+            model[k] = has_cl and np.isfinite(cl[k])
+            if model[k] and cl[k] >= MODEL_CLOUD_MIN:
+                cloud[k] = True
+            cloud[k] = cloud[k] and fin[k]
     # --- adiabatic LWC from each layer base (icing.adiabat.adiabatic_lwc_from_bases) and cloud kind
     nr = runs(cloud, n, starts, ends)
-    for k in range(n):
-        tpar[k] = np.nan
-        lwcad[k] = 0.0
-        o_kind[k] = 0
     for r in range(nr):
         s, e = starts[r], ends[r]
         tb = t[s]
@@ -330,8 +354,7 @@ def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, height
     # --- per cloud layer: thickness, top temperature, the precipitation source, drizzle runs
     src_level = -1
     src_phase = 0
-    for k in range(n):
-        dz_src[k] = False
+    any_dz = False
     for r in range(nr):
         s, e = starts[r], ends[r]
         base, top = run_bounds(zagl, zb, s, e, n)
@@ -342,163 +365,161 @@ def column(p, lnp, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, height
         cold_top = t_top < dz_top_t
         deep = thick >= dz_min_thick
         if (not cold_top) and (t_top <= T0) and deep:
+            any_dz = True
             for k in range(s, e + 1):
                 dz_src[k] = True
         if cold_top or deep:
             src_level = e
             src_phase = _SN if cold_top else (_DZ if t_top <= T0 else _RA)
     # drizzle_below: from the sources down through contiguous sub-freezing levels
-    carry = False
-    for k in range(n - 1, -1, -1):
-        cold = np.isfinite(t[k]) and t[k] <= T0
-        carry = (carry and cold) or (dz_src[k] and cloud[k] and cold)
-        carry_b[k] = carry
-    humidity_complete = True
-    for k in range(n):
-        if np.isfinite(t[k]) and not np.isfinite(o_rhw[k]):
-            humidity_complete = False
-    # --- precipitation type (icing.layers.precipitation_type, Bourgouin 2000)
-    any_warm = False
-    any_cold = False
-    for k in range(n):
-        fin[k] = np.isfinite(t[k])
-        warm[k] = fin[k] and t[k] > T0
-        any_warm = any_warm or warm[k]
-        any_cold = any_cold or (fin[k] and not warm[k])
-        area[k] = 0.0
-    if any_warm and any_cold and src_level >= 0:  # icing.layers._energy_area
-        for k in range(n):
-            lnth[k] = lnt[k] - KAPPA * lnp[k]
-        for k in range(n - 1):
-            d0 = t[k] - T0
-            d1 = t[k + 1] - T0
-            if (d0 > 0) != (d1 > 0):
-                xc = lnp[k] + d0 / (d0 - d1) * (lnp[k + 1] - lnp[k])
-                lnth_c = LN_T0 - KAPPA * xc
-                low = CP_D * abs(0.5 * d0 * (lnth_c - lnth[k]))
-                up = CP_D * abs(0.5 * d1 * (lnth[k + 1] - lnth_c))
-            else:
-                low = abs((d0 + d1) * 0.5 * (lnth[k + 1] - lnth[k])) * CP_D
-                up = 0.0
-            area[k] += low if np.isfinite(low) else 0.0
-            if np.isfinite(up):
-                area[k + 1] += up
-    # warm and cold layers, bottom up: starts in gst, warm-ness and area
-    nl = 0
-    for k in range(n):
-        if fin[k] and (k == 0 or (not fin[k - 1]) or warm[k] != warm[k - 1]):
-            gst[nl] = k
-            nl += 1
-        lid[k] = nl - 1 if fin[k] else -1
-    for j in range(nl):
-        tpar[j] = 0.0  # reuse: area of layer j
-    for k in range(n):
-        if lid[k] >= 0:
-            tpar[lid[k]] += area[k]
-    src_ord = -1
-    if src_level >= 0 and lid[src_level] >= 0:
-        src_ord = nl - 1 - lid[src_level]
+    if any_dz:
+        carry = False
+        for k in range(n - 1, -1, -1):
+            cold = fin[k] and t[k] <= T0
+            carry = (carry and cold) or (dz_src[k] and cloud[k] and cold)
+            carry_b[k] = carry
+    # --- precipitation type (icing.layers.precipitation_type, Bourgouin 2000). Without a precipitation
+    # source the phase stays "none" through every layer, so the layers are worked out only with one.
+    nl = 1 if any_t else 0  # (only whether there is a layer matters without a source)
     phase = _NONE
-    pa = 0.0
-    for lay in range(nl):
-        j = nl - 1 - lay
-        a = tpar[j]
-        w = warm[gst[j]]
-        s_ = j == 0
-        if src_ord == lay and phase == _NONE:
-            phase = src_phase
-        has_ice = phase == _SN or phase == _PL or phase == _FZRAPL
-        liquid = phase == _RA or phase == _FZRA
-        drizzle = phase == _DZ or phase == _FZDZ
-        rain2[j] = False
-        if w and not s_:
-            if has_ice and a >= melt_aloft:
-                pa = a
-                phase = _MELTED
-            if liquid:
-                phase = _RA
-            elif drizzle:
-                phase = _DZ
-        if not w:
-            melted = phase == _MELTED
-            rain2[j] = melted or liquid or phase == _FZRAPL
-            if melted:
-                phase = _PL if a > 66.0 + 0.66 * pa else (_FZRA if a < 46.0 + 0.66 * pa else _FZRAPL)
-            if liquid:
-                phase = _FZRA
-            elif drizzle:
-                phase = _FZDZ
-        if w and s_:
-            if has_ice:
-                mixed = _RASN if phase == _SN else _RAPL
-                surf = phase if a < 5.6 else (_RA if a > 13.2 else mixed)
-                if phase == _FZRAPL:
-                    surf = _RA if a > 13.2 else _RAPL
-                phase = surf
-            if liquid:
-                phase = _RA
-            elif drizzle:
-                phase = _DZ
+    if src_level >= 0:
+        for k in range(n):
+            area[k] = 0.0
+        if any_warm and any_cold:  # icing.layers._energy_area
+            for k in range(n):
+                lnth[k] = lnt[k] - KAPPA * lnp[k]
+            for k in range(n - 1):
+                d0 = t[k] - T0
+                d1 = t[k + 1] - T0
+                if (d0 > 0) != (d1 > 0):
+                    xc = lnp[k] + d0 / (d0 - d1) * (lnp[k + 1] - lnp[k])
+                    lnth_c = LN_T0 - KAPPA * xc
+                    low = CP_D * abs(0.5 * d0 * (lnth_c - lnth[k]))
+                    up = CP_D * abs(0.5 * d1 * (lnth[k + 1] - lnth_c))
+                else:
+                    low = abs((d0 + d1) * 0.5 * (lnth[k + 1] - lnth[k])) * CP_D
+                    up = 0.0
+                area[k] += low if np.isfinite(low) else 0.0
+                if np.isfinite(up):
+                    area[k + 1] += up
+        # warm and cold layers, bottom up: starts in gst, warm-ness and area
+        nl = 0
+        for k in range(n):
+            if fin[k] and (k == 0 or (not fin[k - 1]) or warm[k] != warm[k - 1]):
+                gst[nl] = k
+                nl += 1
+            lid[k] = nl - 1 if fin[k] else -1
+        for j in range(nl):
+            tpar[j] = 0.0  # reuse: area of layer j
+        for k in range(n):
+            if lid[k] >= 0:
+                tpar[lid[k]] += area[k]
+        src_ord = -1
+        if lid[src_level] >= 0:
+            src_ord = nl - 1 - lid[src_level]
+        pa = 0.0
+        for lay in range(nl):
+            j = nl - 1 - lay
+            a = tpar[j]
+            w = warm[gst[j]]
+            s_ = j == 0
+            if src_ord == lay and phase == _NONE:
+                phase = src_phase
+            has_ice = phase == _SN or phase == _PL or phase == _FZRAPL
+            liquid = phase == _RA or phase == _FZRA
+            drizzle = phase == _DZ or phase == _FZDZ
+            rain2[j] = False
+            if w and not s_:
+                if has_ice and a >= melt_aloft:
+                    pa = a
+                    phase = _MELTED
+                if liquid:
+                    phase = _RA
+                elif drizzle:
+                    phase = _DZ
+            if not w:
+                melted = phase == _MELTED
+                rain2[j] = melted or liquid or phase == _FZRAPL
+                if melted:
+                    phase = _PL if a > 66.0 + 0.66 * pa else (_FZRA if a < 46.0 + 0.66 * pa else _FZRAPL)
+                if liquid:
+                    phase = _FZRA
+                elif drizzle:
+                    phase = _FZDZ
+            if w and s_:
+                if has_ice:
+                    mixed = _RASN if phase == _SN else _RAPL
+                    surf = phase if a < 5.6 else (_RA if a > 13.2 else mixed)
+                    if phase == _FZRAPL:
+                        surf = _RA if a > 13.2 else _RAPL
+                    phase = surf
+                if liquid:
+                    phase = _RA
+                elif drizzle:
+                    phase = _DZ
     ptype = phase
     if ptype == _NONE and not humidity_complete:
         ptype = -1
     if nl == 0:
         ptype = -1
-    # --- large drops, warm layers aloft, freezing-level count
+    # --- large drops, warm layers aloft, freezing-level count and (icing.grid.column_summaries, on the
+    # levels as given) the column summaries, in one pass
     cold_seen = False
     fl_count = 0
-    for k in range(n):
-        rain = lid[k] >= 0 and (not warm[k]) and rain2[lid[k]]
-        o_large[k] = 2 if rain else (1 if carry_b[k] else 0)
-        o_warm[k] = t[k] > T0 and cold_seen
-        if np.isfinite(t[k]) and t[k] <= T0:
-            cold_seen = True
-        if k < n - 1 and np.isfinite(t[k]) and np.isfinite(t[k + 1]) and ((t[k] > T0) != (t[k + 1] > T0)):
-            fl_count += 1
-    lowest = np.nan
-    if want_summary:  # icing.grid.column_summaries, on the levels as given
+    ncross = 0
+    have_prev = False
+    t_prev = 0.0
+    z_prev = 0.0
+    t_low = np.nan
+    z_low = np.nan
+    base = np.inf
+    top = -np.inf
+    any_sc = False
+    if want_summary:
         for c in range(o_lev.shape[0]):
             o_lev[c] = np.nan
-        ncross = 0
-        have_prev = False
-        t_prev = 0.0
-        z_prev = 0.0
-        t_low = np.nan
-        z_low = np.nan
-        base = np.inf
-        top = -np.inf
-        any_sc = False
-        for k in range(n):
-            if o_sc[k] and np.isfinite(z_raw[k]):
+    for k in range(n):
+        rain = src_level >= 0 and lid[k] >= 0 and (not warm[k]) and rain2[lid[k]]
+        o_large[k] = 2 if rain else (1 if (any_dz and carry_b[k]) else 0)
+        tk = t[k]
+        o_warm[k] = tk > T0 and cold_seen
+        if fin[k] and tk <= T0:
+            cold_seen = True
+        if k < n - 1 and fin[k] and fin[k + 1] and ((tk > T0) != (t[k + 1] > T0)):
+            fl_count += 1
+        if want_summary:
+            zr = z_raw[k]
+            if o_sc[k] and np.isfinite(zr):
                 any_sc = True
-                if z_raw[k] < base:
-                    base = z_raw[k]
-                if z_raw[k] > top:
-                    top = z_raw[k]
-            tk = t_raw[k] - T0
-            if not (np.isfinite(tk) and np.isfinite(z_raw[k])):
-                continue
-            if not have_prev:
-                t_low = tk
-                z_low = z_raw[k]
-            elif (t_prev > 0) != (tk > 0):
-                frac = t_prev / (t_prev - tk)
-                if ncross < o_lev.shape[0]:
-                    o_lev[ncross] = z_prev + frac * (z_raw[k] - z_prev)
-                ncross += 1
-            have_prev = True
-            t_prev = tk
-            z_prev = z_raw[k]
+                if zr < base:
+                    base = zr
+                if zr > top:
+                    top = zr
+            tr = t_raw[k] - T0
+            if np.isfinite(tr) and np.isfinite(zr):
+                if not have_prev:
+                    t_low = tr
+                    z_low = zr
+                elif (t_prev > 0) != (tr > 0):
+                    frac = t_prev / (t_prev - tr)
+                    if ncross < o_lev.shape[0]:
+                        o_lev[ncross] = z_prev + frac * (zr - z_prev)
+                    ncross += 1
+                have_prev = True
+                t_prev = tr
+                z_prev = zr
+    lowest = np.nan
+    if want_summary:
         lowest = z_low if t_low <= 0.0 else o_lev[0]
         o_base[0] = base if any_sc else np.nan
         o_top[0] = top if any_sc else np.nan
     return ptype, fl_count, lowest
 
 @njit(block_sig, nogil=True, cache=True, error_model="numpy")
-def block(p, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, heights, min_v, max_v, inter_v, prm,
+def block(p, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heights, min_v, max_v, inter_v, prm,
           liquid_rh, tab, tab_ax, inv, inv_ax, lnp_ax, cap_t, cap_v, use_cap, mvd_denom, mvd_ratio,
           want_summary, rhw, rhi, cloud, sc, lf, lwc, mvd, large, warm, kind, ptype, flc, lowest, levels,
-          base, top):
+          base, top, valid):
     npro, n = t.shape
     scr_f = np.empty((12, n))
     scr_i = np.empty((6, n), np.int64)
@@ -513,11 +534,11 @@ def block(p, t, td, z, cl, has_cl, valid, t_raw, z_raw, cold_limit, heights, min
             for k in range(n):
                 lnp[k] = np.log(p[i, k])
         ic = i if has_cl else 0
-        pt, fc, lo = column(p[ip], lnp, t[i], td[i], z[i], cl[ic], has_cl, valid[i], t_raw[i], z_raw[i],
+        pt, fc, lo = column(p[ip], lnp, t[i], td[i], z[i], cl[ic], has_cl, td_raw[i], t_raw[i], z_raw[i],
                             cold_limit, heights, min_v, max_v, inter_v, prm, liquid_rh, tab, tab_ax, inv,
                             inv_ax, lnp_ax, cap_t, cap_v, use_cap, mvd_denom, mvd_ratio, want_summary, n,
                             rhw[i], rhi[i], cloud[i], sc[i], lf[i], lwc[i], mvd[i], large[i], warm[i],
-                            kind[i], levels[i], base[i:i + 1], top[i:i + 1], scr_f, scr_i, scr_b)
+                            kind[i], levels[i], base[i:i + 1], top[i:i + 1], valid[i], scr_f, scr_i, scr_b)
         ptype[i] = pt
         flc[i] = fc
         lowest[i] = lo

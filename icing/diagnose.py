@@ -289,11 +289,13 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
         flat = [np.take_along_axis(a, order, axis=-1) for a in flat]
     p, t_raw, td_raw, z_raw = flat[:4]
     cl = flat[4] if has_model else None
-    valid = np.isfinite(p) & np.isfinite(t_raw) & np.isfinite(td_raw)
-    t = _fill_gaps(p, t_raw)
-    td = np.minimum(_fill_gaps(p, td_raw), t)
-    z = _fill_gaps(p, z_raw)
     use_fused = _engine(engine, p.shape[0] * n)
+    t = _fill_gaps(p, t_raw)
+    td = _fill_gaps(p, td_raw)
+    z = _fill_gaps(p, z_raw)
+    if not use_fused:  # (the fused kernel does these two in its own pass)
+        valid = np.isfinite(p) & np.isfinite(t_raw) & np.isfinite(td_raw)
+        td = np.minimum(td, t)
     with_summaries = bool(summaries and use_fused and sorted_already)
     starts = range(0, max(p.shape[0], 1), _BLOCK)
     if use_fused:
@@ -305,7 +307,7 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
 
         def fused_block(i):  # writes into its rows of ``out`` (the kernel releases the GIL)
             sl = slice(i, i + _BLOCK)
-            fused.diagnose_block(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
+            fused.diagnose_block(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], td_raw[sl],
                                  t_raw[sl], z_raw[sl], cold_limit, n_drop, airmass, prm, cap,
                                  summaries=with_summaries, out={k: v[sl] for k, v in out.items()})
 
@@ -315,7 +317,6 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
         else:
             for i in starts:
                 fused_block(i)
-        out["valid"] = valid
 
     # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles).
     def block(i):

@@ -67,18 +67,21 @@ def empty_outputs(npro, n, summaries=False):
            "supercooled": np.empty((npro, n), bool), "liquid_fraction": np.empty((npro, n)),
            "lwc": np.empty((npro, n)), "mvd": np.empty((npro, n)), "large_drop": np.empty((npro, n), np.int8),
            "warm_layer_aloft": np.empty((npro, n), bool), "cloud_kind": np.empty((npro, n), np.int8),
-           "precipitation_type": np.empty(npro, np.int8), "freezing_level_count": np.empty(npro, np.int64)}
+           "precipitation_type": np.empty(npro, np.int8), "freezing_level_count": np.empty(npro, np.int64),
+           "valid": np.empty((npro, n), bool)}
     if summaries:
         out.update({"freezing_level_m": np.empty(npro), "freezing_levels": np.empty((npro, N_CROSSINGS)),
                     "supercooled_base_m": np.empty(npro), "supercooled_top_m": np.empty(npro)})
     return out
 
 
-def diagnose_block(p, t, td, z, cl, valid, t_raw, z_raw, cold_limit, n_drop, airmass, prm, cap_table,
+def diagnose_block(p, t, td, z, cl, td_raw, t_raw, z_raw, cold_limit, n_drop, airmass, prm, cap_table,
                    summaries=False, out=None):
     """:func:`icing.diagnose._diagnose_sorted` (and, with ``summaries``, the column summaries of
     :func:`icing.grid.column_summaries` on ``t_raw``/``z_raw``) for a block of pressure-sorted columns (P, n).
 
+    ``t``, ``td``, ``z`` have their gaps filled (:func:`icing.diagnose._fill_gaps`; the dewpoint is held to the
+    temperature here), ``t_raw``, ``td_raw``, ``z_raw`` are as measured (for ``valid`` and the summaries).
     ``p`` may be one shared row (1, n) or (P, n); ``cl`` None or (P, n); ``cap_table`` the (temperature,
     cap) table of :func:`icing.diagnose._cap_table` (used when ``prm["stratiform_cap"]``); ``out`` arrays
     from :func:`empty_outputs` (or rows of them) to write into. Returns the outputs, with ``valid``."""
@@ -108,14 +111,13 @@ def diagnose_block(p, t, td, z, cl, valid, t_raw, z_raw, cold_limit, n_drop, air
                                                       "supercooled_top_m"))
     else:
         lowest, levels, base, top = np.empty(npro), np.empty((npro, 1)), np.empty(npro), np.empty(npro)
-    block(p, f64(t), f64(td), f64(z), cl, has_cl, np.asarray(valid, dtype=bool), f64(t_raw), f64(z_raw),
+    block(p, f64(t), f64(td), f64(z), cl, has_cl, f64(td_raw), f64(t_raw), f64(z_raw),
           float(cold_limit), heights, np.asarray(prm["min_rh"], dtype=float), np.asarray(prm["max_rh"], dtype=float),
           np.asarray(prm["inter_rh"], dtype=float), scalars, liquid_rh, tab, tab_ax, inv, inv_ax, lnp_ax, cap_t,
           cap_v, bool(prm["stratiform_cap"] and cap_table is not None), mvd_denom, mvd_ratio, bool(summaries),
           out["rh_water"], out["rh_ice"], out["in_cloud"], out["supercooled"], out["liquid_fraction"], out["lwc"],
           out["mvd"], out["large_drop"], out["warm_layer_aloft"], out["cloud_kind"], out["precipitation_type"],
-          out["freezing_level_count"], lowest, levels, base, top)
-    out["valid"] = np.asarray(valid, dtype=bool)
+          out["freezing_level_count"], lowest, levels, base, top, out["valid"])
     return out
 
 
