@@ -85,6 +85,27 @@ def interp(x, xp, fp):
     return r
 
 @jit
+def interp4(x, h0, h1, h2, h3, f0, f1, f2, f3, s0, s1, s2):
+    # interp() on four points given as scalars, with the slopes computed once as numpy computes them
+    # (np.interp precomputes the slopes when it has more points to evaluate than table entries)
+    if x != x:
+        return x
+    if x < h0:
+        return f0
+    if x >= h3:
+        return f3
+    if x < h1:
+        h, f, s = h0, f0, s0
+    elif x < h2:
+        h, f, s = h1, f1, s1
+    else:
+        h, f, s = h2, f2, s2
+    if x == h:
+        return f
+    return s * (x - h) + f  # (numpy's NaN fallbacks cannot arise: finite thresholds, finite x)
+
+
+@jit
 def clip(x, lo, hi):  # np.clip, NaN kept
     if x < lo:
         return lo
@@ -181,6 +202,9 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
             break
     if not np.isfinite(z0):
         z0 = z[0]
+    h0, h1, h2, h3 = heights[0], heights[1], heights[2], heights[3]  # (four heights: layers.ZHANG_HEIGHTS_M)
+    m0, m1, m2, m3 = min_v[0], min_v[1], min_v[2], min_v[3]
+    ms0, ms1, ms2 = (m1 - m0) / (h1 - h0), (m2 - m1) / (h2 - h1), (m3 - m2) / (h3 - h2)
     all_t = True  # every level has a temperature
     any_t = False
     any_warm = False
@@ -212,7 +236,7 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
         rhc[k] = rc
         za = z[k] - z0
         zagl[k] = za
-        mr = interp(za, heights, min_v)
+        mr = interp4(za, h0, h1, h2, h3, m0, m1, m2, m3, ms0, ms1, ms2)  # layers.zhang_thresholds
         minrh[k] = mr
         # cloud_mask: the min-RH criterion and its crossing height inside each interval (layers._boundaries)
         fk = rc - mr

@@ -184,7 +184,13 @@ def _check_params(params):
     unknown = set(params) - set(layers.CLOUD_DEFAULTS)
     if unknown:
         raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(layers.CLOUD_DEFAULTS)}")
-    return {**layers.CLOUD_DEFAULTS, **params}
+    prm = {**layers.CLOUD_DEFAULTS, **params}
+    for name in ("min_rh", "max_rh", "inter_rh"):  # one value per height of layers.ZHANG_HEIGHTS_M
+        values = np.asarray(prm[name], dtype=float) if np.ndim(prm[name]) == 1 else None
+        if values is None or values.size != len(layers.ZHANG_HEIGHTS_M) or not np.isfinite(values).all():
+            raise ConfigError(f"{name} must be {len(layers.ZHANG_HEIGHTS_M)} finite RH values (percent), one per "
+                              f"height {layers.ZHANG_HEIGHTS_M} m; got {prm[name]!r}")
+    return prm
 
 
 def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, *, cold_limit=233.15,

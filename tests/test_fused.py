@@ -164,6 +164,15 @@ def test_engine_errors(monkeypatch):
     assert auto["lwc"].shape == t.shape
 
 
+@pytest.mark.parametrize("engine", ["numpy", "numba"])
+def test_threshold_tables_must_match_the_heights(engine):
+    """The RH thresholds are one value per height of the Zhang et al. table (the kernel reads four)."""
+    p, t, td, z = columns(5, seed=9)
+    for bad in ((90.0, 88.0, 85.0), (90.0, np.nan, 85.0, 70.0), 90.0):
+        with pytest.raises(ConfigError, match="min_rh"):
+            diagnose_arrays(p, t, td, z, engine=engine, min_rh=bad)
+
+
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(seed=st.integers(0, 2**32 - 1), n=st.integers(1, 30), gaps=st.booleans())
 def test_engines_agree_property(seed, n, gaps):
