@@ -35,6 +35,7 @@ __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "sch
 
 N_FREEZING_LEVELS = 3  # freezing levels kept per column, lowest first
 DEFAULT_CHUNK_POINTS = 400_000  # level-points per chunk: ~3 MB per float64 field, a few hundred MB of temporaries
+WRITE_BATCH_CHUNKS = 256  # chunks per dask graph in write_grid (a graph costs ~4 kB of scheduler state per task)
 ACCRETION_OUTPUTS = ("potential_rate", "potential_intensity", "ice_type")
 SUMMARY_OUTPUTS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", "supercooled_top_m",
                    "max_potential_intensity", "max_potential_rate")
@@ -345,11 +346,50 @@ def _encodable(ds):
     return out
 
 
-def write_grid(ds: xr.Dataset, path, *, client=None, progress=True, variables=None):
-    """Write a (lazy) diagnosed grid to netCDF (``.nc``, h5netcdf) or zarr (``.zarr``, needs zarr), computing
-    chunk by chunk on the current scheduler (or ``client``) with a progress bar on stderr.
+class _Targets:
+    """The ``writer`` xarray's :meth:`xarray.Dataset.dump_to_store` hands each variable to (in place of its
+    ArrayWriter): numpy-backed data is written at once, dask-backed sources are kept for batch-wise storing."""
 
-    ``variables`` limits what is written (for example only the 2-D summaries)."""
+    def __init__(self):
+        self.items = []
+
+    def add(self, source, target, region=None):
+        if hasattr(source, "dask"):
+            self.items.append((source, target, region))
+        elif region:
+            target[region] = source
+        else:
+            target[...] = source
+
+
+def _batches(arrays, batch_chunks):
+    """Slices of axis 0 made of whole chunks of the array with the most chunks, about ``batch_chunks`` each."""
+    lead = max(arrays, key=lambda a: a.npartitions)
+    rows = max(batch_chunks // max(lead.npartitions // lead.numblocks[0], 1), 1)
+    bounds = np.concatenate([[0], np.cumsum(lead.chunks[0])]).astype(int).tolist()
+    return [slice(bounds[i], bounds[min(i + rows, len(bounds) - 1)]) for i in range(0, len(bounds) - 1, rows)]
+
+
+def _run(collections, client, progress, done, total):
+    import dask
+
+    if client is not None:
+        client.gather(client.compute(list(collections)))
+    else:
+        dask.compute(*collections)
+    if progress:
+        print(f"\rwriting: {done}/{total} batches", end="" if done < total else "\n", file=sys.stderr, flush=True)
+
+
+def write_grid(ds: xr.Dataset, path, *, client=None, progress=True, variables=None,
+               batch_chunks=WRITE_BATCH_CHUNKS):
+    """Write a (lazy) diagnosed grid to netCDF (``.nc``, h5netcdf) or zarr (``.zarr``, needs zarr), computing
+    chunk by chunk on the current scheduler (or ``client``), with a count of the batches on stderr.
+
+    ``variables`` limits what is written (for example only the 2-D summaries). A dask-backed grid is written
+    in batches of about ``batch_chunks`` chunks along its leading dimension, one dask graph per batch: the
+    scheduler's bookkeeping (a few kB per task, about 20 tasks per chunk) then stays bounded instead of growing
+    with the size of the grid."""
     from pathlib import Path
 
     path = Path(path)
@@ -368,24 +408,42 @@ def write_grid(ds: xr.Dataset, path, *, client=None, progress=True, variables=No
         else:
             ds.to_netcdf(path, engine="h5netcdf")
         return path
-    delayed = ds.to_zarr(path, mode="w", compute=False) if is_zarr else ds.to_netcdf(path, engine="h5netcdf",
-                                                                                       compute=False)
-    if client is not None:
-        future = client.compute(delayed)
-        if progress:
-            from distributed import progress as show
+    import dask.array as da
 
-            with contextlib.redirect_stdout(sys.stderr):  # stdout is for results
-                show(future, notebook=False)
-                print()
-        future.result()
-    elif progress:
-        from dask.diagnostics import ProgressBar
-
-        with ProgressBar(out=sys.stderr, dt=0.5):
-            delayed.compute()
-    else:
-        delayed.compute()
+    if is_zarr:
+        whole = ds.to_zarr(path, mode="w", compute=False)  # writes the metadata and the numpy-backed variables
+        chunked = [v for v in ds.data_vars if ds[v].chunks]
+        if not chunked:  # only coordinates are dask-backed
+            _run([whole], client, False, 0, 0)
+            return path
+        lead = ds[max(chunked, key=lambda v: ds[v].data.npartitions)].dims[0]
+        rest = [v for v in chunked if lead not in ds[v].dims]
+        if rest:
+            _run([ds[rest].to_zarr(path, mode="r+", compute=False)], client, False, 0, 0)
+        along = ds[[v for v in chunked if lead in ds[v].dims]]
+        along = along.drop_vars([c for c in along.coords if lead not in along[c].dims])
+        parts = _batches([along[v].data for v in along.data_vars], batch_chunks)
+        for k, sl in enumerate(parts, 1):
+            part = along.isel({lead: sl}).to_zarr(path, region={lead: sl}, mode="r+", compute=False)
+            _run([part], client, progress, k, len(parts))
+        return path
+    store = xr.backends.H5NetCDFStore.open(path, mode="w")
+    try:
+        targets = _Targets()
+        ds.dump_to_store(store, writer=targets)  # creates every variable, writes the numpy-backed ones
+        lead = max((s for s, _, _ in targets.items), key=lambda s: s.npartitions)
+        along = [(s, t) for s, t, _ in targets.items if s.chunks[0] == lead.chunks[0]]
+        rest = [(s, t) for s, t, _ in targets.items if s.chunks[0] != lead.chunks[0]]
+        if rest:  # dask-backed variables not chunked like the leading axis (e.g. pressure per level): whole
+            stored = da.store([s for s, _ in rest], [t for _, t in rest], lock=False, compute=False)
+            _run(stored if isinstance(stored, tuple) else [stored], client, False, 0, 0)
+        parts = _batches([lead], batch_chunks)
+        for k, sl in enumerate(parts, 1):  # the targets take xarray's file lock themselves (lock=False here)
+            stored = da.store([s[sl] for s, _ in along], [t for _, t in along], lock=False, compute=False,
+                              regions=[(sl,) + (slice(None),) * (s.ndim - 1) for s, _ in along])
+            _run(stored if isinstance(stored, tuple) else [stored], client, progress, k, len(parts))
+    finally:
+        store.close()
     return path
 
 
