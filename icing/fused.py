@@ -2,16 +2,19 @@
 
 :func:`icing.diagnose.diagnose_arrays` chains the physics as whole-array numpy operations: clear, but a few
 hundred passes over memory and a temporary array for each. This module does the same arithmetic column by
-column in one compiled loop (numba), reading the inputs once and writing each output once, and is used for
-large inputs when numba is installed (``engine="auto"``; ``engine="numpy"`` forces the array version). It is
-not a second model: every step below mirrors a numpy function named beside it, with the same formulas,
+column in one compiled loop (numba; the kernels are in :mod:`icing._fused_kernels`), reading the inputs once
+and writing each output once, and is used for large inputs when numba is installed (``engine="auto"``;
+``engine="numpy"`` forces the array version). It is not a second model: every step of the kernels mirrors a
+numpy function named beside it, with the same formulas,
 constants and tables, and ``tests/test_fused.py`` checks that both engines give the same results (flags equal,
 numbers to rounding). The physics and its sources are documented where it lives: :mod:`icing.layers`,
 :mod:`icing.adiabat`, :mod:`icing.microphysics`, :mod:`icing.diagnose`, :func:`icing.grid.column_summaries`
 and :func:`icing.accretion.intensity_code`.
 
 Only pressure-sorted columns come here (pressure decreasing along the level axis, gaps already filled by
-:func:`icing.diagnose._fill_gaps`); the caller falls back to numpy otherwise.
+:func:`icing.diagnose._fill_gaps`): :func:`icing.diagnose.diagnose_arrays` sorts them first and puts the
+results back in the input order. The accretion heat balance of the supercooled levels stays in numpy
+(:func:`icing.accretion.accretion_core`, on those levels only).
 """
 
 from __future__ import annotations
