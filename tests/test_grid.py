@@ -8,7 +8,6 @@ hand-worked linear interpolation for freezing levels, and dask's own schedulers 
 from __future__ import annotations
 
 import argparse
-import importlib.util
 from pathlib import Path
 
 import numpy as np
@@ -185,15 +184,6 @@ def test_freezing_levels_by_hand():
     assert s["supercooled_base_m"][0] == 2000.0 and s["supercooled_top_m"][0] == 4000.0
     cold = column_summaries(t - 10.0, z, sc, np.ones_like(sc))  # sub-freezing at the ground: the surface
     assert cold["freezing_level_m"][0] == 0.0
-
-
-@pytest.fixture(scope="module")
-def demo_model(tmp_path_factory):
-    """The demo model file as sample_soundings/make_model.py writes it (invented fields)."""
-    spec = importlib.util.spec_from_file_location("make_model", SAMPLES / "make_model.py")
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod.main(tmp_path_factory.mktemp("model") / "demo_model.nc")
 
 
 def test_longitude_conventions_and_latitude_order_give_the_same_route(tmp_path, demo_model):

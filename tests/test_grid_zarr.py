@@ -11,9 +11,7 @@ its integer type only in the netCDF file.
 from __future__ import annotations
 
 import argparse
-import importlib.util
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -26,17 +24,6 @@ from icing.io.model import read_model
 pytest.importorskip("zarr")
 # zarr's own note that consolidated metadata (xarray's default when writing) is outside the zarr v3 spec
 pytestmark = pytest.mark.filterwarnings("ignore:Consolidated metadata is currently not part:UserWarning")
-
-SAMPLES = Path(__file__).parents[1] / "sample_soundings"
-
-
-@pytest.fixture(scope="module")
-def demo_model(tmp_path_factory):
-    """The demo model file as sample_soundings/make_model.py writes it (invented fields)."""
-    spec = importlib.util.spec_from_file_location("make_model", SAMPLES / "make_model.py")
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod.main(tmp_path_factory.mktemp("model") / "demo_model.nc")
 
 
 def _flagged(ds):
