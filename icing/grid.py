@@ -309,6 +309,9 @@ def scheduler(workers=None, address=None, *, threads_per_worker=1, processes=Tru
     if address and workers:
         raise IcingError("give either a scheduler address or a number of workers, not both")
     if not address and not workers:
+        if not _have_dask():  # nothing lazy to schedule: eager numpy-backed grids compute at once
+            yield None
+            return
         import dask
 
         with dask.config.set(scheduler="threads"):
@@ -482,10 +485,17 @@ def add_grid_parser(subparsers):
 
 
 def open_fields(paths, chunk_points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
-    """Read one or more model files lazily and join them along time (sorted; duplicate times raise)."""
+    """Read one or more model files lazily and join them along time (sorted; duplicate times raise).
+
+    Without dask (the optional ``scale`` extra) the files are read whole into memory instead, with a note on
+    stderr: fine for small grids such as the demo's."""
     from .io.model import read_model
 
-    parts = [read_model(p, chunks={}) for p in paths]
+    lazy = _have_dask()
+    if not lazy:
+        print("icing grid: dask is not installed, so the grid is read whole into memory and diagnosed at once "
+              "(pip install 'icing[scale]' for chunked, parallel processing of large grids)", file=sys.stderr)
+    parts = [read_model(p, chunks={} if lazy else None) for p in paths]
     if len(parts) == 1:
         ds = parts[0]
     else:
@@ -496,7 +506,15 @@ def open_fields(paths, chunk_points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
             raise IcingError("the model files repeat a valid time")
         ds.attrs["quality"] = [e for p in parts for e in p.attrs.get("quality", [])]
         ds.attrs["source"] = ";".join(str(p) for p in paths)
-    return chunk_model(ds, chunk_points)
+    return chunk_model(ds, chunk_points) if lazy else ds
+
+
+def _have_dask():
+    try:
+        import dask.array  # noqa: F401
+    except ImportError:
+        return False
+    return True
 
 
 def grid_main(args) -> int:
@@ -513,7 +531,10 @@ def grid_main(args) -> int:
     print(CAUTION, file=sys.stderr)
     where = (f"a LocalCluster of {args.workers} workers" if args.workers else
              f"the cluster at {args.scheduler}" if args.scheduler else "the threaded scheduler")
-    print(f"icing grid: {npts:,} level-points in {ds['temperature'].data.npartitions} chunks on {where}",
+    chunks = getattr(ds["temperature"].data, "npartitions", 1)
+    if not _have_dask():
+        where = "numpy in this process"
+    print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}",
           file=sys.stderr)
     with scheduler(args.workers, args.scheduler) as client:
         out = write_grid(ds, args.out, client=client, progress=not args.quiet, variables=names)

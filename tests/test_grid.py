@@ -236,6 +236,24 @@ def test_grid_command_writes_the_potential(tmp_path, capsys, demo_model):
     assert "wrote" in capsys.readouterr().out
 
 
+def test_grid_command_without_dask_reads_eagerly(tmp_path, capsys, monkeypatch, demo_model):
+    """Without dask installed (a plain `pip install .`) `icing grid` reads the file whole, says so, and writes
+    the same potential as the chunked run."""
+    import icing.grid as grid
+
+    monkeypatch.setattr(grid, "_have_dask", lambda: False)
+    parser = argparse.ArgumentParser()
+    add_grid_parser(parser.add_subparsers(dest="command"))
+    args = parser.parse_args(["grid", str(demo_model), "--out", str(tmp_path / "eager.nc"), "--quiet"])
+    assert grid_main(args) == 0
+    err = capsys.readouterr().err
+    assert "dask is not installed" in err and "numpy in this process" in err
+    with xr.open_dataset(tmp_path / "eager.nc", engine="h5netcdf") as res:
+        expected = diagnose_grid(read_model(demo_model), "turboprop")
+        for name in ("max_potential_intensity", "freezing_level_m", "lwc"):
+            np.testing.assert_array_equal(res[name].values, expected[name].values)
+
+
 def test_lazy_source_samples_like_the_eager_one():
     """A dask-backed grid samples exactly like the same grid in memory, computing only the columns it needs;
     many routes' samples go in one call (here 300 points in batches of 64)."""
