@@ -188,13 +188,13 @@ def main(argv=None):
     lazy_in = eager.chunk({"time": 1, "latitude": side, "longitude": side, "level": -1})
     thr_rate = {}
     for engine in engines:
-        res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine)[summaries]
+        res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine, outputs=summaries)
         with dask.config.set(scheduler="threads"):
             dt_thr = _timed(lambda res=res: res.compute(), 2)
         thr_rate[engine] = nlp / dt_thr
         print(f"chain, dask threaded, {engine}:  {thr_rate[engine] / 1e6:8.2f} M level-points/s ({dt_thr:.1f} s)")
     engine = engines[-1]
-    res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine)[summaries]
+    res = diagnose_grid(lazy_in, AIRCRAFT, engine=engine, outputs=summaries)
 
     from distributed import wait
 
@@ -204,7 +204,7 @@ def main(argv=None):
         gen = synthetic_model(args.times, lat, lon, points=args.points, lazy=True)
         gen = gen.persist()
         wait([gen[k].data for k in ("temperature", "dewpoint", "height")])
-        res_d = diagnose_grid(gen, AIRCRAFT, engine=engine)[summaries]
+        res_d = diagnose_grid(gen, AIRCRAFT, engine=engine, outputs=summaries)
         client.run(lambda: __import__("icing.grid"))  # workers import the package before the clock starts
         if engine == "numba":
             client.run(lambda: __import__("icing.fused").fused._kernels())  # and load the compiled kernels

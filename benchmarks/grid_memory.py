@@ -58,7 +58,8 @@ def main(argv=None):
     from dask.callbacks import Callback
     from grid import AIRCRAFT, LEVELS, region, synthetic_model
 
-    from icing.grid import diagnose_grid, scheduler, write_grid
+    from icing.diagnose import PROFILE_OUTPUTS
+    from icing.grid import SUMMARY_OUTPUTS, diagnose_grid, scheduler, write_grid
 
     lat, lon = region()
     per_time = 3 * lat.size * lon.size * LEVELS.size * 8  # temperature, dewpoint, height in float64
@@ -66,8 +67,9 @@ def main(argv=None):
     model = synthetic_model(n_times, lat, lon, points=args.points, lazy=True)
     virtual = sum(model[k].nbytes for k in ("temperature", "dewpoint", "height"))
     nlp = n_times * lat.size * lon.size * LEVELS.size
-    ds = diagnose_grid(model, AIRCRAFT)
+    ds = diagnose_grid(model, AIRCRAFT, outputs=list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS))  # as --summary-only
     summary = [n for n in ds.data_vars if "level" not in ds[n].dims]
+    n_chunks = ds["max_potential_intensity"].data.npartitions
     proc = psutil.Process(os.getpid())
     base = rss_bytes(proc)
     peak = [base]
@@ -79,7 +81,7 @@ def main(argv=None):
             time.sleep(0.05)
 
     print(f"virtual input {virtual / 1e9:.1f} GB ({n_times} times x {lat.size} x {lon.size} x {LEVELS.size} = "
-          f"{nlp / 1e6:.0f} M level-points, {ds['lwc'].data.npartitions} chunks); budget {args.budget_mb:.0f} MB; "
+          f"{nlp / 1e6:.0f} M level-points, {n_chunks} chunks); budget {args.budget_mb:.0f} MB; "
           f"RSS before {base / 1e6:.0f} MB")
     graphs = []  # (tasks, RSS) when the threaded scheduler has built its state for a graph
 
@@ -99,7 +101,7 @@ def main(argv=None):
     if graphs:  # the threaded scheduler (a distributed scheduler keeps its graph in its own process)
         total = sum(n for n, _ in graphs)
         at_start = max(r for _, r in graphs)
-        print(f"{len(graphs)} dask graph(s) of {total} tasks ({total / ds['lwc'].data.npartitions:.1f} per chunk), "
+        print(f"{len(graphs)} dask graph(s) of {total} tasks ({total / n_chunks:.1f} per chunk), "
               f"the largest {max(n for n, _ in graphs)}; highest RSS when the scheduler started one "
               f"{at_start / 1e6:.0f} MB ({(at_start - base) / 1e6:.0f} MB above the RSS before)")
     print(f"done in {dt:.0f} s ({nlp / dt / 1e6:.2f} M level-points/s); summaries file {size / 1e6:.0f} MB")

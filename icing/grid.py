@@ -201,7 +201,7 @@ def _aircraft(aircraft, airspeed_kt=None):
 
 
 def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental",
-                  airspeed_kt=None, engine=None, **thresholds) -> xr.Dataset:
+                  airspeed_kt=None, engine=None, outputs=None, **thresholds) -> xr.Dataset:
     """Diagnostics, summaries and (with an aircraft) the accretion potential of a whole gridded profile Dataset.
 
     Parameters
@@ -218,6 +218,10 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     engine : {"auto", "numpy", "numba"}, optional
         As :func:`icing.diagnose.diagnose_arrays` (per chunk): numba's fused kernel when installed, for chunks
         of at least :data:`icing.diagnose.FUSED_MIN_POINTS` level-points; the same results either way.
+    outputs : iterable of str, optional
+        Only these of the computed fields (for example the column summaries): the chain still runs whole,
+        but a chunk's level fields are dropped as soon as it is done instead of being held until every output
+        is taken. Default: all.
 
     Returns
     -------
@@ -252,25 +256,35 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     level_names = list(LEVEL_OUTPUTS) + (list(ACCRETION_OUTPUTS) if ac is not None else [])
     column_names = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS[:4]) + (list(SUMMARY_OUTPUTS[4:]) if ac else [])
     names = level_names + column_names
+    if outputs is not None:
+        wanted = list(dict.fromkeys(outputs))
+        unknown = [n for n in wanted if n not in names]
+        if unknown or not wanted:
+            raise ConfigError(f"unknown grid output(s) {unknown or '(none given)'}; known: {names}")
+        names = [n for n in names if n in wanted]
 
     def core(*arrs):
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
                         cold_limit=ck, airmass=airmass, engine=engine, **thresholds)
-        return tuple(out[k] for k in names)
+        return tuple(out[k] for k in names) if len(names) > 1 else out[names[0]]
 
     core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []
                  for n in names]
     results = xr.apply_ufunc(
         core, *inputs, input_core_dims=[["level"]] * len(inputs), output_core_dims=core_dims,
         dask="parallelized", output_dtypes=[_DTYPES.get(n, float) for n in names],
-        dask_gufunc_kwargs={"allow_rechunk": False, "output_sizes": {"crossing": N_FREEZING_LEVELS}})
+        dask_gufunc_kwargs={"allow_rechunk": False, **({"output_sizes": {"crossing": N_FREEZING_LEVELS}}
+                                                       if "freezing_levels" in names else {})})
+    if len(names) == 1:  # apply_ufunc gives one output alone, not in a tuple
+        results = (results,)
     lead = [d for d in model["temperature"].dims if d != "level"]
     keep = [v for v in ("pressure", "height", "temperature", "dewpoint", "wind_speed", "wind_direction",
                         "cloud_liquid") if v in model]
     ds = model[keep].copy()
     for name, da, dims in zip(names, results, core_dims, strict=True):
         ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or diag_attrs.get(name, {}))
-    ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1))
+    if "freezing_levels" in names:
+        ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1))
     ds.attrs = {k: v for k, v in model.attrs.items() if k not in ("featureType", "icing_model")}
     ds.attrs.update({"cold_limit": float(cold_limit), "cold_limit_units": "degC", "airmass": str(airmass),
                      "lwc_source": "model cloud liquid" if has_cl else "adiabatic", "caution": CAUTION,
@@ -522,8 +536,10 @@ def grid_main(args) -> int:
     if args.workers is not None and args.workers < 1:
         raise IcingError("--workers must be at least 1")
     model = open_fields(args.fields, args.chunk_points)
+    summary = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS)
     ds = diagnose_grid(model, args.aircraft, cold_limit=args.cold_limit, airmass=args.airmass,
-                       airspeed_kt=args.airspeed, engine=args.engine)
+                       airspeed_kt=args.airspeed, engine=args.engine,
+                       outputs=summary if args.summary_only else None)
     names = None
     if args.summary_only:
         names = [n for n in ds.data_vars if "level" not in ds[n].dims]

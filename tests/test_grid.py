@@ -16,6 +16,7 @@ import pytest
 import xarray as xr
 
 from icing import thermo
+from icing.errors import ConfigError
 from icing.grid import add_grid_parser, chunk_model, column_summaries, diagnose_grid, grid_main
 from icing.gridsource import GridSource
 from icing.io import read_profiles
@@ -252,6 +253,34 @@ def test_grid_command_without_dask_reads_eagerly(tmp_path, capsys, monkeypatch, 
         expected = diagnose_grid(read_model(demo_model), "turboprop")
         for name in ("max_potential_intensity", "freezing_level_m", "lwc"):
             np.testing.assert_array_equal(res[name].values, expected[name].values)
+
+
+def test_outputs_subset_equals_the_full_result(tmp_path, capsys, demo_model):
+    """`outputs=` computes only the named fields, with the values of the full run; `--summary-only` writes the
+    column summaries alone; an unknown name is a ConfigError."""
+    pytest.importorskip("dask")
+    model = chunk_model(read_model(demo_model), 5_000)
+    full = diagnose_grid(model, "turboprop").compute()
+    names = ["max_potential_intensity", "freezing_levels", "supercooled_top_m"]
+    part = diagnose_grid(model, "turboprop", outputs=names)
+    assert not {"lwc", "potential_rate", "rh_water"} & set(part.data_vars)
+    part = part.compute()
+    for name in names:
+        np.testing.assert_array_equal(part[name].values, full[name].values)
+    one = diagnose_grid(model, "turboprop", outputs=["max_potential_rate"]).compute()  # no crossing dimension
+    np.testing.assert_array_equal(one["max_potential_rate"].values, full["max_potential_rate"].values)
+    eager = diagnose_grid(read_model(demo_model), "turboprop", outputs=["max_potential_rate"])
+    np.testing.assert_array_equal(eager["max_potential_rate"].values, full["max_potential_rate"].values)
+    with pytest.raises(ConfigError, match="unknown grid output"):
+        diagnose_grid(model, "turboprop", outputs=["icing_everywhere"])
+    parser = argparse.ArgumentParser()
+    add_grid_parser(parser.add_subparsers(dest="command"))
+    args = parser.parse_args(["grid", str(demo_model), "--out", str(tmp_path / "s.nc"), "--summary-only",
+                              "--quiet"])
+    assert grid_main(args) == 0
+    with xr.open_dataset(tmp_path / "s.nc", engine="h5netcdf") as res:
+        assert "lwc" not in res and "level" not in res["max_potential_intensity"].dims
+        np.testing.assert_array_equal(res["max_potential_intensity"].values, full["max_potential_intensity"].values)
 
 
 def test_lazy_source_samples_like_the_eager_one():
