@@ -550,8 +550,18 @@ def grid_main(args) -> int:
     chunks = getattr(ds["temperature"].data, "npartitions", 1)
     if not _have_dask():
         where = "numpy in this process"
-    print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}",
-          file=sys.stderr)
+    from .diagnose import _engine
+
+    per_chunk = npts / max(chunks, 1)
+    engine = "numba (compiled)" if _engine(args.engine, per_chunk) else "numpy"
+    print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}, "
+          f"engine {engine}", file=sys.stderr)
+    if engine != "numpy" and not args.workers and not args.scheduler:
+        from . import fused
+
+        print("icing grid: loading the compiled kernels (their first use on a machine compiles them, about "
+              "20 s)", file=sys.stderr)
+        fused._kernels()
     with scheduler(args.workers, args.scheduler) as client:
         out = write_grid(ds, args.out, client=client, progress=not args.quiet, variables=names)
     with xr.open_dataset(out, engine="h5netcdf") if out.suffix != ".zarr" else xr.open_zarr(out) as res:
