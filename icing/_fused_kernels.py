@@ -124,6 +124,8 @@ def bilinear(flat, ncol, a0, da, na, v, l0, dl, nl, lnp):
     # icing.adiabat._bilinear on a (axis, ln p) table raveled to ``flat``
     f0 = clip((v - a0) / da, 0.0, na - 1.000001)
     f1 = clip((lnp - l0) / dl, 0.0, nl - 1.000001)
+    if not (np.isfinite(f0) and np.isfinite(f1)):  # a NaN input gives NaN (never an index out of the table)
+        return np.nan
     i0 = int(f0)
     i1 = int(f1)
     w0 = f0 - i0

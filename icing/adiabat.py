@@ -147,9 +147,14 @@ def _tables():
 
 
 def _bilinear(table, axis0, values0, lnp):
-    """Bilinear interpolation in a (axis0, _LNP) table; inputs are clipped to the table's range."""
+    """Bilinear interpolation in a (axis0, _LNP) table; inputs are clipped to the table's range; a NaN input
+    gives NaN."""
     f0 = np.clip((values0 - axis0[0]) / (axis0[1] - axis0[0]), 0.0, axis0.size - 1.000001)
     f1 = np.clip((lnp - _LNP[0]) / (_LNP[1] - _LNP[0]), 0.0, _LNP.size - 1.000001)
+    nan = ~(np.isfinite(f0) & np.isfinite(f1))
+    if nan.any():  # (a level without pressure, say): look up row 0 there and blank the result below
+        f0 = np.where(nan, 0.0, f0)
+        f1 = np.where(nan, 0.0, f1)
     i0 = f0.astype(np.intp)
     i1 = f1.astype(np.intp)
     w0 = f0 - i0
@@ -159,7 +164,8 @@ def _bilinear(table, axis0, values0, lnp):
     k = i0 * ncol + i1  # flat index of table[i0, i1]; np.take is faster than 2-D fancy indexing
     a = np.take(flat, k) * (1.0 - w1) + np.take(flat, k + 1) * w1
     b = np.take(flat, k + ncol) * (1.0 - w1) + np.take(flat, k + ncol + 1) * w1
-    return a * (1.0 - w0) + b * w0
+    out = a * (1.0 - w0) + b * w0
+    return np.where(nan, np.nan, out) if nan.any() else out
 
 
 def wet_bulb_potential_temperature_saturated(pressure, temperature):

@@ -115,6 +115,16 @@ def test_engines_agree_with_settings(kwargs):
     assert_same(*both(p, t, td, z, threads=1, **kwargs))
 
 
+def test_engines_agree_where_pressure_is_missing():
+    """Levels without a pressure (NaN) but with temperature and dewpoint: not valid, no crash, same results."""
+    p, t, td, z = columns(800, seed=10, gaps=False)
+    rng = np.random.default_rng(100)
+    p[rng.random(p.shape) < 0.05] = np.nan
+    a, b = both(p, t, td, z, threads=1)
+    assert_same(a, b)
+    assert not b["valid"][~np.isfinite(p)].any()
+
+
 def test_engines_agree_on_levels_out_of_order():
     """Shuffled levels are sorted inside and the results put back: the same either way."""
     p, t, td, z = columns(1500, seed=5)
