@@ -185,8 +185,8 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
            want_summary, n, o_rhw, o_rhi, o_cloud, o_sc, o_lf, o_lwc, o_mvd, o_large, o_warm, o_kind,
            o_lev, o_base, o_top, o_valid, scr_f, scr_i, scr_b):
     """One column (level arrays of length n, t/td/z gaps filled, td not yet held to t); returns
-    (precipitation type, freezing-level count, lowest freezing level). Scratch arrays: scr_f (12, n) floats,
-    scr_i (6, n) ints, scr_b (8, n) bools."""
+    (precipitation type, freezing-level count, lowest freezing level). Scratch arrays: scr_f (11, n)
+    floats (row 1 holds ln p, set by the caller), scr_i (5, n) ints, scr_b (8, n) bools."""
     (min_moist_base, min_moist_thick, min_cloud_base, merge_gap, thin_low, thin_high, low_limit,
      conv_excess, f_strat, f_conv, dz_top_t, dz_min_thick, melt_aloft) = (
         prm[0], prm[1], prm[2], prm[3], prm[4], prm[5], prm[6], prm[7], prm[8], prm[9], prm[10], prm[11],
@@ -547,8 +547,8 @@ def block(p, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heights, mi
           want_summary, rhw, rhi, cloud, sc, lf, lwc, mvd, large, warm, kind, ptype, flc, lowest, levels,
           base, top, valid):
     npro, n = t.shape
-    scr_f = np.empty((12, n))
-    scr_i = np.empty((6, n), np.int64)
+    scr_f = np.empty((11, n))
+    scr_i = np.empty((5, n), np.int64)
     scr_b = np.empty((8, n), np.bool_)
     shared_p = p.shape[0] == 1
     lnp = scr_f[1]

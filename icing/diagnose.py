@@ -303,6 +303,8 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
         valid = np.isfinite(p) & np.isfinite(t_raw) & np.isfinite(td_raw)
         td = np.minimum(td, t)
     with_summaries = bool(summaries and use_fused and sorted_already)
+    # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles); numpy and the
+    # compiled kernel release the GIL, so blocks run in parallel threads.
     starts = range(0, max(p.shape[0], 1), _BLOCK)
     if use_fused:
         from . import fused
@@ -311,7 +313,7 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
             if prm["stratiform_cap"] else None
         out = fused.empty_outputs(p.shape[0], n, with_summaries)
 
-        def fused_block(i):  # writes into its rows of ``out`` (the kernel releases the GIL)
+        def fused_block(i):  # writes into its rows of ``out``
             sl = slice(i, i + _BLOCK)
             fused.diagnose_block(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], td_raw[sl],
                                  t_raw[sl], z_raw[sl], cold_limit, n_drop, airmass, prm, cap,
@@ -323,34 +325,30 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
         else:
             for i in starts:
                 fused_block(i)
-
-    # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles).
-    def block(i):
-        sl = slice(i, i + _BLOCK)
-        return _diagnose_sorted(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
-                                cold_limit, n_drop, airmass, prm)
-
-    if use_fused:
-        pass  # done above
-    elif len(starts) == 1:
-        out = block(0)
     else:
-        first = block(0)
-        out = {k: np.empty((p.shape[0],) + v.shape[1:], v.dtype) for k, v in first.items()}
+        def block(i):
+            sl = slice(i, i + _BLOCK)
+            return _diagnose_sorted(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
+                                    cold_limit, n_drop, airmass, prm)
 
-        def store(i, part):
-            for k, v in part.items():
-                out[k][i:i + _BLOCK] = v
-
-        store(0, first)
-        if workers > 1:
-            # numpy releases the GIL inside its loops, so blocks run in parallel threads.
-            with ThreadPoolExecutor(workers) as pool:
-                for i, part in zip(starts[1:], pool.map(block, starts[1:]), strict=True):
-                    store(i, part)
+        if len(starts) == 1:
+            out = block(0)
         else:
-            for i in starts[1:]:
-                store(i, block(i))
+            first = block(0)
+            out = {k: np.empty((p.shape[0],) + v.shape[1:], v.dtype) for k, v in first.items()}
+
+            def store(i, part):
+                for k, v in part.items():
+                    out[k][i:i + _BLOCK] = v
+
+            store(0, first)
+            if workers > 1:
+                with ThreadPoolExecutor(workers) as pool:
+                    for i, part in zip(starts[1:], pool.map(block, starts[1:]), strict=True):
+                        store(i, part)
+            else:
+                for i in starts[1:]:
+                    store(i, block(i))
     result = {}
     for name, arr in out.items():
         if name in _SUMMARY_KEYS:

@@ -29,7 +29,6 @@ from .accretion import _IN_PER_H, INTENSITY_THRESHOLDS_IN_PER_H
 __all__ = ["available", "diagnose_block", "empty_outputs", "potential_summary", "ENGINES"]
 
 ENGINES = ("auto", "numpy", "numba")
-N_CROSSINGS = 3  # as icing.grid.N_FREEZING_LEVELS
 
 
 @functools.lru_cache(maxsize=1)
@@ -50,7 +49,7 @@ def _kernels():
     return _fused_kernels.block, _fused_kernels.potential
 
 
-@functools.lru_cache(maxsize=4)
+@functools.lru_cache(maxsize=1)
 def _tables():
     tab, inv = adiabat._tables()
     ax = lambda a: np.array([a[0], a[1] - a[0], a.size], dtype=float)  # noqa: E731
@@ -73,7 +72,9 @@ def empty_outputs(npro, n, summaries=False):
            "precipitation_type": np.empty(npro, np.int8), "freezing_level_count": np.empty(npro, np.int64),
            "valid": np.empty((npro, n), bool)}
     if summaries:
-        out.update({"freezing_level_m": np.empty(npro), "freezing_levels": np.empty((npro, N_CROSSINGS)),
+        from .grid import N_FREEZING_LEVELS
+
+        out.update({"freezing_level_m": np.empty(npro), "freezing_levels": np.empty((npro, N_FREEZING_LEVELS)),
                     "supercooled_base_m": np.empty(npro), "supercooled_top_m": np.empty(npro)})
     return out
 

@@ -26,7 +26,7 @@ import numpy as np
 import xarray as xr
 
 from . import CAUTION, thermo
-from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS
+from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, _engine
 from .errors import ConfigError, IcingError
 from .units import KT, dataarray_to_unit
 
@@ -246,6 +246,7 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     unknown = set(thresholds) - set(CLOUD_DEFAULTS)
     if unknown:
         raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(CLOUD_DEFAULTS)}")
+    _engine(engine, 0)  # an unknown engine, or numba asked for and missing, fails now rather than in a worker
     ck = float(cold_limit) + thermo.T0
     ac, tas, diam = _aircraft(aircraft, airspeed_kt)
     inputs = [dataarray_to_unit(model[name], unit)
@@ -289,9 +290,6 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     ds.attrs.update({"cold_limit": float(cold_limit), "cold_limit_units": "degC", "airmass": str(airmass),
                      "lwc_source": "model cloud liquid" if has_cl else "adiabatic", "caution": CAUTION,
                      "quality": list(model.attrs.get("quality", []))})
-    from .diagnose import _engine
-
-    _engine(engine, 0)  # an unknown engine, or numba asked for and missing, fails now rather than in a worker
     if ac is not None:
         ds.attrs.update({"aircraft": str(getattr(ac, "name", aircraft)), "airspeed_kt": tas / KT,
                          "body_diameter_m": diam})
@@ -550,8 +548,6 @@ def grid_main(args) -> int:
     chunks = getattr(ds["temperature"].data, "npartitions", 1)
     if not _have_dask():
         where = "numpy in this process"
-    from .diagnose import _engine
-
     per_chunk = npts / max(chunks, 1)
     engine = "numba (compiled)" if _engine(args.engine, per_chunk) else "numpy"
     print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}, "
