@@ -19,8 +19,8 @@ sys.path.insert(0, str(Path(__file__).parents[1] / "tests"))
 
 import encoders  # noqa: E402
 
-from icing import thermo  # noqa: E402
 from icing.io import temp  # noqa: E402
+from icing.physics import thermo  # noqa: E402
 
 
 def random_ascent(rng):

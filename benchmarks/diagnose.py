@@ -30,7 +30,7 @@ def synthetic_profiles(n_profiles, n_levels=40, seed=1):
     rng = np.random.default_rng(seed)
     p = np.linspace(100000.0, 25000.0, n_levels)[None, :] * rng.uniform(0.97, 1.03, (n_profiles, 1))
     lapse = rng.uniform(0.0045, 0.0085, (n_profiles, 1))  # K/m
-    from icing import thermo
+    from icing.physics import thermo
 
     z_std = thermo.standard_atmosphere_height(p)
     t = rng.uniform(260.0, 295.0, (n_profiles, 1)) - lapse * (z_std - z_std[:, :1])
@@ -76,9 +76,9 @@ def metpy_loop(p, t, td, in_cloud):
 
 
 def main(n_profiles=100_000, n_metpy=200):
-    import icing.diagnose as diagnose_module
-    from icing import adiabat, fused
-    from icing.diagnose import diagnose_arrays
+    import icing.physics.diagnose as diagnose_module
+    from icing.physics import adiabat, fused
+    from icing.physics.diagnose import diagnose_arrays
 
     p, t, td, z = synthetic_profiles(n_profiles)
     engines = ["numpy"] + (["numba"] if fused.available() else [])

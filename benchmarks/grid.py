@@ -17,7 +17,7 @@ level-points/s, eager / dask threaded / distributed: before the speed-up of the 
 0.26 (load 2.9) and 1.71 / 1.53 / 1.23 (load 1.7); after it 2.40 / 2.41 / 1.56, 2.77 / 2.29 / 1.68,
 3.01 / 2.29 / 1.49 and 2.48 / 2.34 / 1.58 (load 1.1-1.5). Inside a dask or distributed worker thread
 ``diagnose_arrays`` now runs its blocks in that one thread (no oversubscription of the cores).
-With the fused numba engine (icing.fused; load 0.9): eager 6.20, dask threaded 6.19, distributed 1.92 M/s
+With the fused numba engine (icing.physics.fused; load 0.9): eager 6.20, dask threaded 6.19, distributed 1.92 M/s
 (numpy engine in the same run 2.19 / 2.30), 2.6 % of the numpy pass. The kernel alone does about 8 M level-points
 per second on one core, 40 % of it in exp/log (six per level, for the humidities); the rest of a chunk's time is
 the accretion heat balance of the supercooled levels and the numpy glue, and distributed pays dask's cost per
@@ -44,7 +44,7 @@ def region(step=0.25):
 def columns(t_idx, lat, lon, levels=LEVELS):
     """Synthetic fields (degC, degC, m) for the given time indices and 1-D lat/lon: standard atmosphere cooled
     towards the pole, a travelling wave, and moist bands that make cloud decks of varying depth."""
-    from icing import thermo
+    from icing.physics import thermo
 
     tt, yy, xx = np.meshgrid(np.asarray(t_idx, float), lat, lon, indexing="ij")
     z_std = thermo.standard_atmosphere_height(levels * 100.0)
@@ -160,7 +160,7 @@ def main(argv=None):
     print(f"numpy pass (memory bandwidth): {bw_rate / 1e6:8.1f} M level-points/s ({bytes_moved / dt_bw / 1e9:.1f} "
           "GB/s)")
 
-    from icing import fused
+    from icing.physics import fused
 
     engines = ["numpy"] + (["numba"] if fused.available() else [])
     if fused.available():
@@ -207,7 +207,7 @@ def main(argv=None):
         res_d = diagnose_grid(gen, AIRCRAFT, engine=engine, outputs=summaries)
         client.run(lambda: __import__("icing.grid"))  # workers import the package before the clock starts
         if engine == "numba":
-            client.run(lambda: __import__("icing.fused").fused._kernels())  # and load the compiled kernels
+            client.run(lambda: __import__("icing.physics.fused").fused._kernels())  # and load the compiled kernels
         dt_dist = _timed(lambda: client.compute(res_d).result(), 2)
         dist_res = client.compute(res_d).result()
     dist_rate = nlp / dt_dist

@@ -58,8 +58,8 @@ def main(argv=None):
     from dask.callbacks import Callback
     from grid import AIRCRAFT, LEVELS, region, synthetic_model
 
-    from icing.diagnose import PROFILE_OUTPUTS
     from icing.grid import SUMMARY_OUTPUTS, diagnose_grid, scheduler, write_grid
+    from icing.physics.diagnose import PROFILE_OUTPUTS
 
     lat, lon = region()
     per_time = 3 * lat.size * lon.size * LEVELS.size * 8  # temperature, dewpoint, height in float64

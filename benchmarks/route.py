@@ -9,10 +9,10 @@ import time
 
 import numpy as np
 
-from icing.assess import assess_routes
+from icing.flight.assess import assess_routes
+from icing.flight.route import Route
+from icing.flight.sources import SoundingSource
 from icing.profile import build_profile
-from icing.route import Route
-from icing.sources import SoundingSource
 
 rng = np.random.default_rng(1)
 P = np.array([1000, 975, 950, 925, 900, 875, 850, 825, 800, 775, 750, 725, 700, 650, 600, 550, 500, 450, 400, 350,

@@ -10,8 +10,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from . import CAUTION, __version__
-from .errors import IcingError
+from icing import CAUTION, __version__
+from icing.errors import IcingError
 
 EXAMPLES = {
     "screen": "examples:\n  icing screen route.csv --soundings sample_soundings/\n"
@@ -148,22 +148,22 @@ def build_parser() -> argparse.ArgumentParser:
     pp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
     pp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
     pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data)")
-    from .grid import add_grid_parser
+    from icing.grid import add_grid_parser
 
     add_grid_parser(sub)
     return parser
 
 
 def _screen(args, route, soundings):
-    from .aircraft import get_aircraft
-    from .assess import assess_route, atmosphere_source
+    from icing.flight.aircraft import get_aircraft
+    from icing.flight.assess import assess_route, atmosphere_source
 
     progress = Progress(4 if args.out else 2)
     try:
         ac = get_aircraft(args.aircraft, **_overrides(args.set))
         progress.step("reading and diagnosing soundings")
         if getattr(args, "model", None):
-            from .gridsource import GridSource
+            from icing.flight.gridsource import GridSource
 
             source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
         else:
@@ -174,7 +174,7 @@ def _screen(args, route, soundings):
         result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
         fmt = "json" if args.json else args.format
         if args.out:
-            from .report.files import write_reports
+            from icing.report.files import write_reports
 
             progress.step("writing reports")
             written = write_reports(result, args.out, source=source, progress=progress)
@@ -187,25 +187,25 @@ def _screen(args, route, soundings):
     if fmt == "json":
         print(result.to_json())
     elif fmt == "csv":
-        from .report.files import segments_csv
+        from icing.report.files import segments_csv
 
         sys.stdout.write(segments_csv(result))
     elif fmt == "geojson":
         import json
 
-        from .report.files import segments_geojson
+        from icing.report.files import segments_geojson
 
         print(json.dumps(segments_geojson(result), indent=1))
     else:
-        from .report.text import segment_table
+        from icing.report.text import segment_table
 
         print(segment_table(result))
     return 0
 
 
 def _layers(args):
-    from .io import read_profiles
-    from .layers import supercooled_layers
+    from icing.io import read_profiles
+    from icing.physics.layers import supercooled_layers
 
     frames = []
     for path in args.soundings:
@@ -239,8 +239,8 @@ def _layers(args):
 
 
 def _inspect(args):
-    from .io import read_profiles
-    from .profile import format_quality
+    from icing.io import read_profiles
+    from icing.profile import format_quality
 
     for path in args.soundings:
         for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time):
@@ -259,7 +259,7 @@ def _inspect(args):
 
 
 def _aircraft(args):
-    from .aircraft import PRESETS
+    from icing.flight.aircraft import PRESETS
 
     for name, ac in PRESETS.items():
         print(f"{name:14s} cruise {ac.tas_cruise_kt:.0f} kt, climb {ac.tas_climb_kt:.0f} kt at "
@@ -269,7 +269,7 @@ def _aircraft(args):
 
 
 def _plot(args):
-    from .report.plots import plot_sounding_main
+    from icing.report.plots import plot_sounding_main
 
     written = plot_sounding_main(args.sounding, args.out, cold_limit=args.cold_limit, airmass=args.airmass,
                                  top_hpa=args.top)
@@ -298,7 +298,7 @@ def main(argv=None) -> int:
         if args.command == "plot":
             return _plot(args)
         if args.command == "grid":
-            from .grid import grid_main
+            from icing.grid import grid_main
 
             return grid_main(args)
         parser.error("give a command: screen, demo, layers, plot, inspect or aircraft")

@@ -14,9 +14,9 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-from . import thermo
-from .errors import ProfileQualityError
-from .units import ureg
+from icing.errors import ProfileQualityError
+from icing.physics import thermo
+from icing.units import ureg
 
 __all__ = ["build_profile", "stack_profiles", "check_temperature_unit", "VARIABLES", "QC_FLAGS", "format_quality"]
 

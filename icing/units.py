@@ -11,7 +11,7 @@ import re
 import numpy as np
 from metpy.units import units as ureg
 
-from .errors import UnitError
+from icing.errors import UnitError
 
 __all__ = ["ureg", "Quantity", "to_si", "dataarray_to_unit", "parse_unit", "parse_altitude", "parse_speed", "FT", "KT",
            "NMI"]

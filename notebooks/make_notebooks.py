@@ -158,7 +158,7 @@ NB1 = [
     the clouds there are near. The plot shows the thresholds against the humidity of our ascent.
     """),
     code("""
-    from icing import layers
+    from icing.physics import layers
 
     diag = icing.diagnose(profile)
     z_agl = diag["height"].values - profile.attrs["elevation"]
@@ -237,7 +237,7 @@ NB1 = [
     pellets. Note the two freezing levels and the `large_drop` column.
     """),
     code("""
-    from icing.layers import PRECIPITATION_TYPES
+    from icing.physics.layers import PRECIPITATION_TYPES
 
     brannock = next(p for p in profiles if p.attrs["station"] == "00102" and p.attrs["time"].endswith("T00:00:00Z"))
     b_diag = icing.diagnose(brannock)
@@ -312,7 +312,7 @@ NB1 = [
       the same? (Hint: the TEMP code rounds and drops heights of significant levels.)
     * Cullin Head (00103) has convective cloud. Compare its LWC with Aldren Point's: the adiabatic estimate is
       reduced less for stratiform cloud than for convective cloud, yet convective cloud is deeper.
-    * Try `airmass="marine"` in `icing.diagnose`: fewer, larger droplets for the same LWC. What happens to the
+    * Try `airmass="marine"` in `icing.physics.diagnose`: fewer, larger droplets for the same LWC. What happens to the
       MVD?
 
     ## References
@@ -360,7 +360,7 @@ NB2 = [
     """),
     code(FIND_DATA),
     code("""
-    from icing import accretion, envelopes
+    from icing.physics import accretion, envelopes
     from icing.units import ureg
 
     Q = ureg.Quantity
@@ -680,7 +680,7 @@ NB3 = [
     in time. Reports more than 12 hours away are not used.
     """),
     code("""
-    from icing.sources import SoundingSource
+    from icing.flight.sources import SoundingSource
 
     soundings = [p for f in sounding_files for p in icing.read_profiles(f)]
     source = SoundingSource(soundings)
@@ -935,9 +935,9 @@ NB4 = [
     one vectorised pass. Outside the grid, or outside its times, a sample has no data and says so.
     """),
     code("""
-    from icing.assess import assess_routes
-    from icing.gridsource import GridSource
-    from icing.route import Route
+    from icing.flight.assess import assess_routes
+    from icing.flight.gridsource import GridSource
+    from icing.flight.route import Route
 
     grid = GridSource(model)
     departure = "2026-01-15T05:00:00Z"
@@ -965,7 +965,7 @@ NB4 = [
     ## Try it yourself
 
     * Map the freezing level at 12 UTC, or the precipitation type (`maps["precipitation_type"]`, codes in
-      `icing.layers.PRECIPITATION_TYPES`): where does freezing rain appear?
+      `icing.physics.layers.PRECIPITATION_TYPES`): where does freezing rain appear?
     * Screen the demo route against the grid and against the soundings (notebook 3): the model blends the
       stations smoothly, so the answers differ. Which do you trust, and why should a real forecaster look at
       both?

@@ -2,7 +2,7 @@
 
 It sits in its own folder so that reading ``sample_soundings/`` as a directory of soundings does not meet a
 gridded file (the sounding reader would refuse it); read it with :func:`icing.io.model.read_model` or
-:class:`icing.gridsource.GridSource`.
+:class:`icing.flight.gridsource.GridSource`.
 
 Our own invented model run over the same invented region as the demo soundings (the Varrow Isles, see
 ``make_scenario.py``): a 0.5 degree grid over 51-57 N, 36-21 W, valid 2026-01-15 00, 06 and 12 UTC, on 23
@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
-from icing import thermo
+from icing.physics import thermo
 
 HERE = Path(__file__).parent
 LEVELS = np.array([1000, 975, 950, 925, 900, 875, 850, 825, 800, 775, 750, 725, 700, 650, 600, 550, 500, 450,

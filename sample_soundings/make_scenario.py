@@ -13,8 +13,8 @@ from pathlib import Path
 
 import numpy as np
 
-from icing import thermo
 from icing.io import netcdf, table
+from icing.physics import thermo
 
 HERE = Path(__file__).parent
 LEVELS = np.array([1000, 975, 950, 925, 900, 875, 850, 825, 800, 775, 750, 725, 700, 650, 600, 550, 500, 450,

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from icing import thermo
+from icing.physics import thermo
 
 try:  # the strategies need hypothesis (a test dependency); the encoders alone do not
     from hypothesis import strategies as st

@@ -1,12 +1,12 @@
-"""Tests of icing.accretion against published values: Langmuir and Blodgett (1946), Finstad et al. (1988),
+"""Tests of icing.physics.accretion against published values: Langmuir and Blodgett (1946), Finstad et al. (1988),
 Makkonen (2000), Macklin (1962), the U.S. Standard Atmosphere 1976 and the intensity thresholds."""
 
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from icing import accretion as acc
 from icing.errors import ConfigError, UnitError
+from icing.physics import accretion as acc
 from icing.units import ureg
 
 T0 = 273.15

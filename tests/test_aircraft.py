@@ -1,4 +1,4 @@
-"""Tests of icing.aircraft: presets, TOML files, overrides and typed errors. The presets are invented generic
+"""Tests of icing.flight.aircraft: presets, TOML files, overrides and typed errors. The presets are invented generic
 classes, so no physics is checked against them; unit conversions are checked against the exact definitions
 (1 kt = 1852/3600 m/s, 1 ft = 0.3048 m)."""
 
@@ -6,8 +6,8 @@ import dataclasses
 
 import pytest
 
-from icing.aircraft import PRESETS, Aircraft, get_aircraft
 from icing.errors import ConfigError, UnitError
+from icing.flight.aircraft import PRESETS, Aircraft, get_aircraft
 from icing.units import ureg
 
 

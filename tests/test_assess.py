@@ -8,11 +8,11 @@ import pytest
 from numpy.testing import assert_allclose
 
 import icing
-from icing.aircraft import get_aircraft
-from icing.assess import SEGMENT_COLUMNS, assess_route
+from icing.flight.aircraft import get_aircraft
+from icing.flight.assess import SEGMENT_COLUMNS, assess_route
+from icing.flight.route import Route
+from icing.flight.sources import SoundingSource
 from icing.profile import build_profile
-from icing.route import Route
-from icing.sources import SoundingSource
 
 SAMPLES = Path(__file__).parents[1] / "sample_soundings"
 P = np.array([1000.0, 950.0, 900.0, 850.0, 800.0, 750.0, 700.0, 650.0, 600.0, 500.0, 400.0, 300.0])
@@ -92,7 +92,7 @@ def test_hand_check_rime_segment(source):
     b = 3.641 * k**-0.498 * np.exp(-1.497 * k**-0.694)
     c = 0.00637 * (phi - 100.0) ** 0.381
     e = a - 0.028 - c * (b - 0.0454)
-    core = icing.accretion.accretion_core(w, d, v, t, p, dd)
+    core = icing.physics.accretion.accretion_core(w, d, v, t, p, dd)
     rho = core["ice_density"]
     assert_allclose(smp["rate_mm_per_h"], e * w * v / rho * 1000.0 * 3600.0, rtol=0.02)
     assert_allclose(smp["accretion_mm"], smp["rate_mm_per_h"] * smp["duration_s"] / 3600.0, rtol=1e-12)

@@ -10,9 +10,9 @@ import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
 import icing
-from icing.diagnose import LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose, diagnose_arrays
 from icing.errors import ConfigError, ProfileQualityError
-from icing.layers import SUPERCOOLED_COLUMNS, cloud_layers, freezing_levels, supercooled_layers
+from icing.physics.diagnose import LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose, diagnose_arrays
+from icing.physics.layers import SUPERCOOLED_COLUMNS, cloud_layers, freezing_levels, supercooled_layers
 from icing.profile import build_profile, stack_profiles
 from icing.units import ureg
 
@@ -70,7 +70,7 @@ def test_airmass_changes_droplet_size_only():
     cont, mar = diagnose(prof, stratiform_cap=False), diagnose(prof, airmass="marine", stratiform_cap=False)
     assert_allclose(cont["lwc"].values, mar["lwc"].values)
     wet = cont["lwc"].values > 0
-    from icing.microphysics import mvd_to_mean_volume_ratio
+    from icing.physics.microphysics import mvd_to_mean_volume_ratio
 
     expected = (290.0 / 75.0) ** (1 / 3) * mvd_to_mean_volume_ratio("marine") / mvd_to_mean_volume_ratio("continental")
     assert_allclose(mar["mvd"].values[wet] / cont["mvd"].values[wet], expected, rtol=1e-9)
@@ -198,7 +198,7 @@ def test_demo_freezing_rain_below_warm_nose():
     ds = diagnose(prof)
     assert int(ds["freezing_level_count"]) == 2
     assert ds["warm_layer_aloft"].values[np.isclose(ds["pressure"].values, 800.0)].all()
-    assert icing.layers.PRECIPITATION_TYPES[int(ds["precipitation_type"])] in (
+    assert icing.physics.layers.PRECIPITATION_TYPES[int(ds["precipitation_type"])] in (
         "freezing_rain", "freezing_rain_and_ice_pellets")
     below_nose = (ds["temperature"].values <= 0) & (ds["pressure"].values > 850)
     assert (ds["large_drop"].values[below_nose] == 2).all()
@@ -233,8 +233,8 @@ def test_demo_quality_flows_through():
 
 
 def test_package_level_call_after_submodule_import():
-    """``icing.diagnose(ds)`` works even after ``import icing.diagnose`` bound the module to that name."""
-    import icing.diagnose  # noqa: F401
+    """``icing.diagnose(ds)`` (the public function) works after ``import icing.physics.diagnose``."""
+    import icing.physics.diagnose  # noqa: F401
 
     ds = icing.diagnose(_deck())
     assert "supercooled" in ds and callable(icing.diagnose)
@@ -243,8 +243,8 @@ def test_package_level_call_after_submodule_import():
 def test_stratiform_lwc_held_to_appendix_c_continuous_maximum():
     """Supercooled stratiform LWC never exceeds the 14 CFR 25 Appendix C continuous maximum at the level's
     temperature and MVD (FAA AC 20-73A Table 6 points, e.g. 0.80 g/m3 at 15 um, 0 degC); without the cap the
-    deep deck's adiabatic LWC is larger (project design rule, see icing.diagnose._cap_stratiform)."""
-    from icing.envelopes import continuous_max_lwc_si
+    deep deck's adiabatic LWC is larger (project design rule, see icing.physics.diagnose._cap_stratiform)."""
+    from icing.physics.envelopes import continuous_max_lwc_si
 
     prof = _deck()
     capped, free = diagnose(prof), diagnose(prof, stratiform_cap=False)

@@ -4,7 +4,7 @@ These are tests of equality between two ways of computing the same thing inside 
 itself is checked against published values and MetPy in test_diagnose.py, test_layers.py, test_thermo.py
 and test_microphysics.py): the tabulated Appendix C stratiform cap against the bisection through the
 public envelope and MVD functions, the relative humidities with
-shared logarithms against icing.thermo, the Bourgouin energy areas against the direct transcription of
+shared logarithms against icing.physics.thermo, the Bourgouin energy areas against the direct transcription of
 Bourgouin (2000) eq. 1 over every interval, and the block threads against one thread.
 """
 
@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
-from icing import adiabat, layers, thermo
-from icing import diagnose as diag
-from icing.diagnose import diagnose_arrays
 from icing.errors import ConfigError
+from icing.physics import adiabat, layers, thermo
+from icing.physics import diagnose as diag
+from icing.physics.diagnose import diagnose_arrays
 
 AIRMASSES = [("continental", 290e6), ("marine", 75e6), (150.0, 150e6), (20.0, 20e6), (2000.0, 2000e6)]
 
@@ -36,7 +36,8 @@ def _levels(n, seed):
 @pytest.mark.parametrize(("airmass", "n_drop"), AIRMASSES)
 def test_tabulated_cap_equals_bisection(airmass, n_drop):
     """The tabulated stratiform cap equals the bisection at each level's own temperature (through
-    icing.envelopes.continuous_max_lwc_si and icing.microphysics.median_volume_diameter) within 1e-5 g/m3
+    icing.physics.envelopes.continuous_max_lwc_si and icing.physics.microphysics.median_volume_diameter) within
+    1e-5 g/m3
     (the table is linear between 0.005 K points; kinks of the envelope cost a few 1e-6)."""
     lwc, kind, t, model = _levels(60_000, 3)
     fast = diag._cap_stratiform(lwc, kind, t, model, airmass, n_drop)
@@ -46,7 +47,7 @@ def test_tabulated_cap_equals_bisection(airmass, n_drop):
 
 
 def test_relative_humidities_equal_thermo():
-    """RH over water and ice with shared logarithms equals 100 x icing.thermo.relative_humidity_water / _ice
+    """RH over water and ice with shared logarithms equals 100 x icing.physics.thermo.relative_humidity_water / _ice
     (Murphy and Koop 2005) to rounding, 1e-12 relative, from -90 to +45 degC; NaN stays NaN."""
     rng = np.random.default_rng(6)
     t = rng.uniform(183.0, 318.0, (300, 40))

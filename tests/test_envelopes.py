@@ -1,11 +1,11 @@
-"""Tests of icing.envelopes against 14 CFR Part 25 Appendices C and O."""
+"""Tests of icing.physics.envelopes against 14 CFR Part 25 Appendices C and O."""
 
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from icing import envelopes as env
 from icing.errors import UnitError
+from icing.physics import envelopes as env
 from icing.units import ureg
 
 # FAA AC 20-73A Table 6 (after NACA TN-1855): Appendix C figure 1, continuous maximum, 17.4 nmi, g/m3.

@@ -1,4 +1,4 @@
-"""The fused numba engine (icing.fused) against the numpy engine it mirrors.
+"""The fused numba engine (icing.physics.fused) against the numpy engine it mirrors.
 
 The numpy chain is the reference here: its physics is checked against published values and MetPy in
 test_layers.py, test_microphysics.py, test_diagnose.py and test_accretion.py. These tests only check that the
@@ -17,10 +17,10 @@ from hypothesis import strategies as st
 
 pytest.importorskip("numba")
 
-from icing import fused, thermo  # noqa: E402
-from icing.diagnose import FUSED_MIN_POINTS, diagnose_arrays  # noqa: E402
 from icing.errors import ConfigError  # noqa: E402
 from icing.grid import grid_core  # noqa: E402
+from icing.physics import fused, thermo  # noqa: E402
+from icing.physics.diagnose import FUSED_MIN_POINTS, diagnose_arrays  # noqa: E402
 
 LEVELS_HPA = np.array([1000, 975, 950, 925, 900, 875, 850, 825, 800, 775, 750, 700, 650, 600, 550, 500, 450, 400,
                        350, 300, 250, 200], float)
@@ -147,7 +147,7 @@ def test_grid_core_engines_agree():
 
 
 def test_auto_uses_numba_for_large_inputs_only(monkeypatch):
-    from icing import diagnose as dg
+    from icing.physics import diagnose as dg
 
     p, t, td, z = columns(10, seed=7)
     small = dg._chain(p, t, td, z, None, cold_limit=233.15, airmass="continental", threads=1, engine="auto",

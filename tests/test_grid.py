@@ -1,7 +1,7 @@
-"""Grid diagnostics (icing.grid) and the model grid as an atmosphere source (icing.gridsource).
+"""Grid diagnostics (icing.grid) and the model grid as an atmosphere source (icing.flight.gridsource).
 
-The references here are outside the grid code: the soundings path (icing.sources.SoundingSource over
-icing.diagnose.diagnose) for the same columns, scipy's RegularGridInterpolator for the 4-D interpolation,
+The references here are outside the grid code: the soundings path (icing.flight.sources.SoundingSource over
+icing.physics.diagnose.diagnose) for the same columns, scipy's RegularGridInterpolator for the 4-D interpolation,
 hand-worked linear interpolation for freezing levels, and dask's own schedulers against each other.
 """
 
@@ -15,14 +15,14 @@ import pandas as pd
 import pytest
 import xarray as xr
 
-from icing import thermo
 from icing.errors import ConfigError
+from icing.flight.gridsource import GridSource
+from icing.flight.sources import SoundingSource
 from icing.grid import add_grid_parser, chunk_model, column_summaries, diagnose_grid, grid_main
-from icing.gridsource import GridSource
 from icing.io import read_profiles
 from icing.io.model import read_model
+from icing.physics import thermo
 from icing.profile import stack_profiles
-from icing.sources import SoundingSource
 
 ROOT = Path(__file__).parents[1]
 SAMPLES = ROOT / "sample_soundings"
@@ -191,8 +191,8 @@ def test_longitude_conventions_and_latitude_order_give_the_same_route(tmp_path, 
     """The demo file (latitudes north to south, longitudes 0..360), the same fields rewritten south to north in
     -180..180, and the route typed with 0..360 longitudes give the same segment table; two routes screened in
     one call give what each gives alone."""
-    from icing.assess import assess_route, assess_routes
-    from icing.route import read_route
+    from icing.flight.assess import assess_route, assess_routes
+    from icing.flight.route import read_route
 
     path = demo_model
     raw = xr.open_dataset(path, engine="h5netcdf").load()
@@ -240,7 +240,7 @@ def test_grid_command_writes_the_potential(tmp_path, capsys, demo_model):
 def test_grid_command_without_dask_reads_eagerly(tmp_path, capsys, monkeypatch, demo_model):
     """Without dask installed (a plain `pip install .`) `icing grid` reads the file whole, says so, and writes
     the same potential as the chunked run."""
-    import icing.grid as grid
+    import icing.grid.diagnosis as grid
 
     monkeypatch.setattr(grid, "_have_dask", lambda: False)
     parser = argparse.ArgumentParser()

@@ -14,9 +14,9 @@ import pytest
 import xarray as xr
 from metpy.units import units
 
-from icing import thermo
 from icing.errors import SoundingFormatError
 from icing.io.model import normalise_model, read_model
+from icing.physics import thermo
 
 LEV = np.array([1000.0, 925.0, 850.0, 700.0, 500.0, 300.0])
 LAT = np.array([50.0, 50.5, 51.0])

@@ -8,8 +8,8 @@ from metpy.units import units
 from numpy.testing import assert_allclose
 from scipy.optimize import brentq
 
-from icing import layers, thermo
-from icing.diagnose import diagnose_arrays
+from icing.physics import layers, thermo
+from icing.physics.diagnose import diagnose_arrays
 from icing.profile import build_profile
 
 # ---------------------------------------------------------------- Zhang et al. (2010) cloud thresholds

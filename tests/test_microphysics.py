@@ -7,9 +7,9 @@ from metpy.units import units
 from numpy.testing import assert_allclose
 from scipy import integrate
 
-from icing import adiabat, microphysics, thermo
-from icing.diagnose import diagnose_arrays
 from icing.errors import ConfigError
+from icing.physics import adiabat, microphysics, thermo
+from icing.physics.diagnose import diagnose_arrays
 
 
 @pytest.mark.parametrize(("t_c", "expected"), [(0.0, 1.0), (-10.0, 0.985), (-20.0, 0.753), (-30.0, 0.091)])

@@ -116,7 +116,7 @@ def test_segment_lines_start_and_end_at_their_waypoints():
     altitude ft x 0.3048 exactly), so consecutive features meet."""
     from pathlib import Path
 
-    from icing.assess import assess_route
+    from icing.flight.assess import assess_route
     from icing.report.files import segments_geojson
 
     samples = Path(__file__).parents[1] / "sample_soundings"

@@ -17,8 +17,8 @@ from PIL import Image
 from pyproj import Geod
 
 from icing import CAUTION
-from icing.assess import EXTRA_COLUMNS, SEGMENT_COLUMNS, Assessment
 from icing.errors import IcingError
+from icing.flight.assess import EXTRA_COLUMNS, SEGMENT_COLUMNS, Assessment
 from icing.report import plots
 from icing.units import NMI
 
@@ -168,7 +168,7 @@ def assessment():
 
 def test_rate_classes_follow_the_intensity_thresholds():
     """Colour classes at 1/4, 1 and 3 in/h (US Air Weather Service 1980, as quoted; 25.4 mm per inch exact)."""
-    from icing.accretion import INTENSITY_THRESHOLDS_IN_PER_H
+    from icing.physics.accretion import INTENSITY_THRESHOLDS_IN_PER_H
 
     assert INTENSITY_THRESHOLDS_IN_PER_H == (0.25, 1.0, 3.0)
     np.testing.assert_allclose(plots.RATE_BOUNDS[2:5], [6.35, 25.4, 76.2], rtol=1e-12)
@@ -244,8 +244,8 @@ def test_segment_chart_png_and_missing_segment():
 def test_sounding_figure_shades_supercooled_levels():
     """PNG of the expected size; the supercooled band is shaded at a pressure the diagnosis calls supercooled
     and not at one it does not."""
-    from icing.diagnose import diagnose
     from icing.io import read_profiles
+    from icing.physics.diagnose import diagnose
 
     ds = diagnose(read_profiles(SOUNDING)[0])
     fig = plots.sounding_figure(ds)

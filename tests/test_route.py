@@ -9,7 +9,7 @@ from numpy.testing import assert_allclose
 from pyproj import Geod
 
 from icing.errors import RouteFormatError
-from icing.route import Route, Waypoint, read_route, trajectory
+from icing.flight.route import Route, Waypoint, read_route, trajectory
 from icing.units import KT, NMI
 
 WGS84 = Geod(ellps="WGS84")

@@ -5,8 +5,8 @@ import pytest
 from numpy.testing import assert_allclose
 from pyproj import Geod
 
+from icing.flight.sources import SoundingSource
 from icing.profile import build_profile
-from icing.sources import SoundingSource
 
 P = np.array([1000.0, 925.0, 850.0, 700.0, 600.0, 500.0, 400.0, 300.0])
 

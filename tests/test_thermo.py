@@ -6,7 +6,7 @@ import pytest
 from metpy.units import units
 from numpy.testing import assert_allclose
 
-from icing import thermo
+from icing.physics import thermo
 
 # Goff-Gratch values as tabulated in the Smithsonian Meteorological Tables (hPa), taken from memory via
 # ../shared/DESIGN.md; Murphy and Koop (2005) agree with them to about 1e-3 relative.

@@ -11,7 +11,7 @@ from __future__ import annotations
 import importlib
 from pathlib import Path
 
-from ..errors import SoundingFormatError
+from icing.errors import SoundingFormatError
 
 __all__ = ["read_sounding", "read_profiles", "read_soundings", "read_paths", "reader_for", "FORMATS"]
 
@@ -128,7 +128,7 @@ def read_soundings(paths_or_dir, progress=None, **options):
     along ``profile``; the quality records of all files are in ``attrs["quality"]``, tagged by profile. With
     more than 20 files and a terminal on stderr, a progress bar is drawn there (or pass ``progress``).
     """
-    from ..profile import stack_profiles
+    from icing.profile import stack_profiles
 
     if progress is None:
         progress = _terminal_progress()
@@ -168,7 +168,7 @@ def read_sounding(path, format: str | None = None, **options):
     A file holding one profile gives that profile; a file holding several gives them stacked along a
     ``profile`` dimension (see :func:`icing.profile.stack_profiles`).
     """
-    from ..profile import stack_profiles
+    from icing.profile import stack_profiles
 
     profiles = read_profiles(path, format, **options)
     return profiles[0] if len(profiles) == 1 else stack_profiles(profiles)

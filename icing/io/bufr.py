@@ -16,8 +16,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ProfileQualityError, SoundingFormatError
-from ..profile import build_profile
+from icing.errors import ProfileQualityError, SoundingFormatError
+from icing.profile import build_profile
 
 __all__ = ["FORMAT", "sniff", "read", "SIGNIFICANCE_BITS"]
 

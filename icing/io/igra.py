@@ -30,9 +30,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ProfileQualityError, SoundingFormatError
-from ..profile import build_profile
-from . import file_bytes
+from icing.errors import ProfileQualityError, SoundingFormatError
+from icing.io import file_bytes
+from icing.profile import build_profile
 
 __all__ = ["FORMAT", "sniff", "read", "decode_igra", "MISSING", "REMOVED"]
 

@@ -49,10 +49,10 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
-from .. import thermo
-from ..errors import SoundingFormatError
-from ..profile import RH_MAX, T_RANGE, VARIABLES
-from ..units import ureg
+from icing.errors import SoundingFormatError
+from icing.physics import thermo
+from icing.profile import RH_MAX, T_RANGE, VARIABLES
+from icing.units import ureg
 
 __all__ = ["read_model", "normalise_model", "sniff_grib", "FORMAT_NETCDF", "FORMAT_GRIB"]
 

@@ -14,9 +14,9 @@ import json
 import numpy as np
 import xarray as xr
 
-from ..errors import ProfileQualityError, SoundingFormatError
-from ..profile import VARIABLES, build_profile
-from ..units import Quantity, parse_unit
+from icing.errors import ProfileQualityError, SoundingFormatError
+from icing.profile import VARIABLES, build_profile
+from icing.units import Quantity, parse_unit
 
 FORMAT = "netcdf"
 _MAGIC = (b"CDF\x01", b"CDF\x02", b"\x89HDF\r\n\x1a\n")
@@ -141,7 +141,7 @@ def _read_cf(ds, path):
     tdims = {str(d).lower() for d in ds[found["temperature"]].dims}
     if ds.attrs.get("icing_model") or ({"lat", "latitude", "y"} & tdims and {"lon", "longitude", "x"} & tdims):
         raise SoundingFormatError("gridded model fields, not a sounding: read them with icing.io.model.read_model "
-                                  "or screen with icing.gridsource.GridSource (icing screen --model)", file=path)
+                                  "or screen with icing.flight.gridsource.GridSource (icing screen --model)", file=path)
     zdim = ds[found["temperature"]].dims[-1] if ds[found["temperature"]].ndim else None
     if zdim is None:
         raise SoundingFormatError("air_temperature has no vertical dimension", file=path)

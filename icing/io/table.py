@@ -24,10 +24,10 @@ import re
 
 import numpy as np
 
-from ..errors import ProfileQualityError, SoundingFormatError, UnitError
-from ..profile import VARIABLES, build_profile, check_temperature_unit
-from ..units import Quantity, parse_unit
-from . import file_bytes
+from icing.errors import ProfileQualityError, SoundingFormatError, UnitError
+from icing.io import file_bytes
+from icing.profile import VARIABLES, build_profile, check_temperature_unit
+from icing.units import Quantity, parse_unit
 
 FORMAT = "table"
 

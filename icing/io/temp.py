@@ -29,9 +29,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ProfileQualityError, SoundingFormatError
-from ..profile import build_profile
-from . import file_bytes
+from icing.errors import ProfileQualityError, SoundingFormatError
+from icing.io import file_bytes
+from icing.profile import build_profile
 
 __all__ = ["FORMAT", "sniff", "read", "decode_temp", "decode_temp_arrays", "read_stations",
            "decode_temperature", "decode_dewpoint_depression", "decode_wind", "decode_standard_height"]

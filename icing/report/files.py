@@ -8,8 +8,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import CAUTION
-from ..units import FT
+from icing import CAUTION
+from icing.units import FT
 
 __all__ = ["segments_csv", "segments_geojson", "write_reports"]
 
@@ -98,7 +98,7 @@ def write_reports(assessment, out_dir, source=None, progress=None) -> list[Path]
     p.write_text(json.dumps(segments_geojson(assessment), indent=1))
     written.append(p)
     try:
-        from .html import write_html
+        from icing.report.html import write_html
     except ImportError:
         return written
     written.extend(write_html(assessment, out, source, progress=progress))

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import CAUTION
+from icing import CAUTION
 
 __all__ = ["write_html", "report_html", "SEGMENT_HEADINGS"]
 
@@ -64,7 +64,7 @@ def _fmt(v, col=""):
 
 
 def _png_data(fig) -> tuple[str, bytes]:
-    from .plots import DPI
+    from icing.report.plots import DPI
 
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=DPI)
@@ -73,7 +73,7 @@ def _png_data(fig) -> tuple[str, bytes]:
 
 
 def _haversine_km(lat1, lon1, lat2, lon2):
-    from ..sources import EARTH_RADIUS_M
+    from icing.flight.sources import EARTH_RADIUS_M
 
     p1, p2 = np.radians(lat1), np.radians(lat2)
     a = np.sin((p2 - p1) / 2) ** 2 + np.cos(p1) * np.cos(p2) * np.sin(np.radians(lon2 - lon1) / 2) ** 2
@@ -236,7 +236,7 @@ def write_html(assessment, out_dir, source=None, *, soundings=True, progress=Non
 
     Parameters
     ----------
-    assessment : icing.assess.Assessment
+    assessment : icing.flight.assess.Assessment
     out_dir : path of a folder (created if needed)
     source : atmosphere source, optional
         Used for the layers of the cross-section, the sources table (distance and age of each report) and, with
@@ -244,7 +244,7 @@ def write_html(assessment, out_dir, source=None, *, soundings=True, progress=Non
     progress : callable, optional
         Called as ``progress(done, total, what)`` as each figure is drawn (for a progress bar).
     """
-    from .plots import cross_section_figure, segment_chart_figure, sounding_figure
+    from icing.report.plots import cross_section_figure, segment_chart_figure, sounding_figure
 
     source = source if source is not None else getattr(assessment, "source", None)
     out = Path(out_dir)

@@ -19,9 +19,9 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from .. import CAUTION
-from ..errors import IcingError
-from ..units import FT, NMI
+from icing import CAUTION
+from icing.errors import IcingError
+from icing.units import FT, NMI
 
 __all__ = ["PALETTE", "RATE_CMAP", "RATE_NORM", "LWC_CMAP", "FIGURE_SIZES", "DPI", "sounding_figure",
            "cross_section_figure", "segment_chart_figure", "save_figure", "plot_sounding_main"]
@@ -50,7 +50,7 @@ RATE_COLOURS = ["#eef1f7", "#a9c4eb", "#6f8fd8", "#5b4bb7", "#2f0d63"]
 RATE_CMAP = ListedColormap(RATE_COLOURS, name="icing_rate")
 _IN_PER_H_MM = 25.4
 # Class edges in mm/h: 0 none, then trace < 1/4 in/h, light < 1, moderate <= 3, severe above (the trade's
-# words; thresholds of icing.accretion.INTENSITY_THRESHOLDS_IN_PER_H, US Air Weather Service 1980 as quoted).
+# words; thresholds of icing.physics.accretion.INTENSITY_THRESHOLDS_IN_PER_H, US Air Weather Service 1980 as quoted).
 RATE_BOUNDS = [0.0, 1e-6, 0.25 * _IN_PER_H_MM, 1.0 * _IN_PER_H_MM, 3.0 * _IN_PER_H_MM, 1e6]
 RATE_NORM = BoundaryNorm(RATE_BOUNDS, RATE_CMAP.N)
 RATE_WORDS = ["none", "trace", "light", "moderate", "severe"]
@@ -59,7 +59,7 @@ FIGURE_SIZES = {"sounding": (10.0, 7.5), "cross_section": (12.0, 6.0), "segments
 DPI = 100
 MISSING_HATCH = "///"
 PARTIAL_HATCH = ".."
-FULL = 0.999  # coverage at or above this counts as complete data (as in icing.assess)
+FULL = 0.999  # coverage at or above this counts as complete data (as in icing.flight.assess)
 SHADE_ALPHA = 0.6  # of the supercooled band on the sounding diagram
 
 
@@ -95,7 +95,7 @@ def _band_edges(p, lo, hi):
 def _diagnostics(data, cold_limit, airmass):
     if "supercooled" in data:
         return data
-    from ..diagnose import diagnose
+    from icing.physics.diagnose import diagnose
 
     return diagnose(data, cold_limit=cold_limit, airmass=airmass)
 
@@ -107,7 +107,7 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
     Parameters
     ----------
     diagnostics_or_profile : xarray.Dataset
-        One canonical profile (diagnosed here) or its diagnostics (:func:`icing.diagnose.diagnose`).
+        One canonical profile (diagnosed here) or its diagnostics (:func:`icing.physics.diagnose.diagnose`).
     cold_limit : float
         Cold-limit isotherm drawn and used for the diagnosis of a profile, degC (default -40).
     airmass : str or float
@@ -260,7 +260,7 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
 
     Parameters
     ----------
-    assessment : icing.assess.Assessment
+    assessment : icing.flight.assess.Assessment
     source : atmosphere source, optional
         With a source (``sample(lat, lon, time, pressure=, height=)``) the layers are sampled on a distance x
         altitude grid at the aircraft's position and time: supercooled liquid shaded by LWC, the 0 degC
@@ -529,7 +529,7 @@ def plot_sounding_main(path, out, *, cold_limit=-40.0, airmass="continental", to
     import io
     import sys
 
-    from ..io import read_profiles
+    from icing.io import read_profiles
 
     to_stream = out is None or str(out) == "-"
     if not to_stream and Path(out).suffix.lower() not in (".png", ".svg"):

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import textwrap
 
-from .. import CAUTION
+from icing import CAUTION
 
 
 def _num(v, fmt="{:.1f}", none="-"):

@@ -1,4 +1,4 @@
-"""Property tests of icing.accretion (hypothesis): the monotonic behaviour Makkonen's (2000) model must have,
+"""Property tests of icing.physics.accretion (hypothesis): the monotonic behaviour Makkonen's (2000) model must have,
 unknown never reads as zero, and the SI core equals the Quantity wrappers."""
 
 import numpy as np
@@ -6,7 +6,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from icing import accretion as acc
+from icing.physics import accretion as acc
 from icing.units import ureg
 
 T0 = 273.15

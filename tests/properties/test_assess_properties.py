@@ -4,10 +4,10 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from icing.assess import assess_route
+from icing.flight.assess import assess_route
+from icing.flight.route import Route
+from icing.flight.sources import SoundingSource
 from icing.profile import build_profile
-from icing.route import Route
-from icing.sources import SoundingSource
 
 P = np.array([1000.0, 900.0, 800.0, 700.0, 600.0, 500.0, 400.0, 300.0])
 T = np.array([4.0, -3.0, -8.0, -13.0, -19.0, -26.0, -36.0, -48.0])

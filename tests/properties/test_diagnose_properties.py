@@ -6,8 +6,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose, assert_array_equal
 
-from icing import thermo
-from icing.diagnose import LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose, diagnose_arrays
+from icing.physics import thermo
+from icing.physics.diagnose import LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose, diagnose_arrays
 from icing.profile import build_profile, stack_profiles
 
 DEPRESSIONS = [0.0, 0.05, 0.3, 1.0, 3.0, 8.0, 15.0]

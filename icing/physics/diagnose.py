@@ -2,25 +2,24 @@
 
 :func:`diagnose_arrays` is the numpy core on plain SI arrays with a trailing level axis; :func:`diagnose`
 wraps it for canonical profile Datasets (``xr.apply_ufunc`` with ``level`` as the core dimension, so dask-
-backed inputs stay lazy). The physics lives in :mod:`icing.layers`, :mod:`icing.adiabat` and
-:mod:`icing.microphysics`; this module only chains it.
+backed inputs stay lazy). The physics lives in :mod:`icing.physics.layers`, :mod:`icing.physics.adiabat` and
+:mod:`icing.physics.microphysics`; this module only chains it.
 """
 
 from __future__ import annotations
 
 import functools
 import os
-import sys
 import threading
-import types
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import xarray as xr
 
-from . import CAUTION, adiabat, envelopes, layers, microphysics, thermo
-from .errors import ConfigError
-from .units import dataarray_to_unit, ureg
+from icing import CAUTION
+from icing.errors import ConfigError
+from icing.physics import adiabat, envelopes, layers, microphysics, thermo
+from icing.units import dataarray_to_unit, ureg
 
 __all__ = ["diagnose_arrays", "diagnose", "DEFAULT_COLD_LIMIT_C", "LEVEL_OUTPUTS", "PROFILE_OUTPUTS",
            "THREADS_ENV", "ENGINE_ENV", "FUSED_MIN_POINTS"]
@@ -109,7 +108,8 @@ def _cap_stratiform_reference(lwc, kind, t, model, airmass, n_drop):
 def _relative_humidities(t, lnt, td):
     """RH over water and over ice (percent) from temperature (K, with its log ``lnt``) and dewpoint (K).
 
-    The same as 100 x :func:`icing.thermo.relative_humidity_water` and :func:`icing.thermo.relative_humidity_ice`
+    The same as 100 x :func:`icing.physics.thermo.relative_humidity_water` and
+    :func:`icing.physics.thermo.relative_humidity_ice`
     (Murphy and Koop 2005, eqs. 10 and 7: e_w(Td) / e_w(T) and e_w(Td) / e_i(T)), to rounding, with each
     logarithm taken once and the ratios formed in logs (two exponentials instead of three).
     """
@@ -136,7 +136,7 @@ def _relative_humidities(t, lnt, td):
 
 
 def _ln_esw(t, lnt):
-    """ln e_w (Pa) of Murphy and Koop (2005), eq. (10), as :func:`icing.thermo.saturation_vapor_pressure_water`,
+    """ln e_w (Pa) of Murphy and Koop (2005), eq. (10), as :func:`icing.physics.thermo.saturation_vapor_pressure_water`,
     in place where it can; tanh(u) taken as 1 - 2 / (exp(2u) + 1), one exponential (numpy's tanh is about
     three times slower)."""
     inv = 1.0 / t
@@ -216,11 +216,11 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
         (the CPU count). The results do not depend on it.
     engine : {"auto", "numpy", "numba"}, optional
         ``"numpy"``: the whole-array numpy chain; ``"numba"``: the same chain fused into one compiled pass per
-        column (:mod:`icing.fused`, needs numba); ``"auto"`` (default, or the ``ICING_ENGINE`` environment
+        column (:mod:`icing.physics.fused`, needs numba); ``"auto"`` (default, or the ``ICING_ENGINE`` environment
         variable): numba for inputs of at least ``FUSED_MIN_POINTS`` level-points when it is installed. Both
         give the same results (flags equal, numbers to rounding; ``tests/test_fused.py``).
     **thresholds
-        Any of :data:`icing.layers.CLOUD_DEFAULTS`.
+        Any of :data:`icing.physics.layers.CLOUD_DEFAULTS`.
 
     Returns
     -------
@@ -231,7 +231,7 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
         1 stratiform, 2 convective) and ``valid`` (bool: temperature and humidity were measured there; the
         other fields at invalid levels are interpolated from neighbours, or NaN/False beyond the data, and must
         never be read as cloud-free). Per profile (leading shape): ``precipitation_type`` (int8, codes of
-        :data:`icing.layers.PRECIPITATION_TYPES`) and ``freezing_level_count`` (int).
+        :data:`icing.physics.layers.PRECIPITATION_TYPES`) and ``freezing_level_count`` (int).
 
     Notes
     -----
@@ -251,7 +251,7 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
 
 def _engine(engine, npoints):
     """Whether the fused numba engine runs: ``engine`` (or ``ICING_ENGINE``) and the input size decide."""
-    from . import fused
+    from icing.physics import fused
 
     if engine is None:
         engine = os.environ.get(ENGINE_ENV, "").strip().lower() or "auto"
@@ -307,7 +307,7 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
     # compiled kernel release the GIL, so blocks run in parallel threads.
     starts = range(0, max(p.shape[0], 1), _BLOCK)
     if use_fused:
-        from . import fused
+        from icing.physics import fused
 
         cap = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop)) \
             if prm["stratiform_cap"] else None
@@ -498,7 +498,7 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
     airmass : {"continental", "marine"} or float
         Droplet number for the droplet size (a number is per cm3).
     **thresholds
-        Any of :data:`icing.layers.CLOUD_DEFAULTS`.
+        Any of :data:`icing.physics.layers.CLOUD_DEFAULTS`.
 
     Returns
     -------
@@ -554,15 +554,3 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
         "quality": list(profiles.attrs.get("quality", [])),
     })
     return ds
-
-
-class _CallableModule(types.ModuleType):
-    """Importing ``icing.diagnose`` binds this module as the package attribute ``icing.diagnose``, which
-    shadows the function of the same name exported by ``icing``; calling the module calls the function, so
-    ``icing.diagnose(ds)`` works whatever was imported first."""
-
-    def __call__(self, *args, **kwargs):
-        return diagnose(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule

@@ -33,10 +33,18 @@ from __future__ import annotations
 
 import numpy as np
 
-from .errors import ConfigError
-from .thermo import CP_D, EPSILON, RD, RV, T0, saturation_vapor_pressure_ice, saturation_vapor_pressure_water
-from .units import to_si as _to_si
-from .units import ureg
+from icing.errors import ConfigError
+from icing.physics.thermo import (
+    CP_D,
+    EPSILON,
+    RD,
+    RV,
+    T0,
+    saturation_vapor_pressure_ice,
+    saturation_vapor_pressure_water,
+)
+from icing.units import to_si as _to_si
+from icing.units import ureg
 
 __all__ = [
     "accretion_core", "collision_efficiency", "freezing_fraction", "ice_type", "ice_density", "accretion_rate",

@@ -1,8 +1,8 @@
 """Route assessment: per-segment icing exposure, accretion, ice type, large drops, data status, alternatives.
 
-The flow: the route's 4-D trajectory (:mod:`icing.route`) is sampled at a fixed time step; the atmosphere
+The flow: the route's 4-D trajectory (:mod:`icing.flight.route`) is sampled at a fixed time step; the atmosphere
 source gives the diagnosed supercooled liquid (LWC, MVD, temperature) at each sample; the accretion model
-(:mod:`icing.accretion`) turns it into ice growth on the aircraft's reference body at the sample's true
+(:mod:`icing.physics.accretion`) turns it into ice growth on the aircraft's reference body at the sample's true
 airspeed; samples are summed per segment (waypoint to waypoint). Where the source has no usable data the
 sample is unknown, and a segment with unknown samples never reports ``none``.
 """
@@ -15,8 +15,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import CAUTION, thermo
-from .units import FT, NMI
+from icing import CAUTION
+from icing.physics import thermo
+from icing.units import FT, NMI
 
 __all__ = ["assess_route", "assess_routes", "atmosphere_source", "Assessment", "SEGMENT_COLUMNS", "INTENSITIES",
            "ICE_TYPES", "LARGE_DROPS", "DATA_STATUS"]
@@ -45,7 +46,7 @@ class Assessment:
     samples: pd.DataFrame
     caution: str = CAUTION
     alternatives: pd.DataFrame = field(default_factory=pd.DataFrame)
-    route: object = field(default=None, repr=False)  # the icing.route.Route screened
+    route: object = field(default=None, repr=False)  # the icing.flight.route.Route screened
     source: object = field(default=None, repr=False)  # the atmosphere source used
 
     def to_dict(self) -> dict:
@@ -70,11 +71,11 @@ def atmosphere_source(soundings, **options):
     """
     if hasattr(soundings, "sample"):
         return soundings
-    from .sources import SoundingSource
+    from icing.flight.sources import SoundingSource
 
     if isinstance(soundings, str) or hasattr(soundings, "__fspath__") or hasattr(soundings, "attrs"):
         soundings = [soundings]
-    from .io import read_paths
+    from icing.io import read_paths
 
     read_opts = {k: options[k] for k in ("stations", "reference_time") if options.get(k) is not None}
     profiles = []
@@ -99,7 +100,7 @@ def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
 
 
 def _accrete(atm, tas_ms, body_diameter_m):
-    from .accretion import accretion_core
+    from icing.physics.accretion import accretion_core
 
     t_k = atm["temperature"] + thermo.T0
     lwc = np.where(np.isfinite(atm["lwc"]), atm["lwc"], 0.0)
@@ -119,7 +120,7 @@ def _accrete(atm, tas_ms, body_diameter_m):
 
 
 def _intensity(rate_mm_h):
-    from .accretion import intensity_code
+    from icing.physics.accretion import intensity_code
 
     return np.asarray(intensity_code(np.asarray(rate_mm_h) / 1000.0 / 3600.0))
 
@@ -130,10 +131,10 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
 
     Parameters
     ----------
-    route : icing.route.Route or path
-        The planned route (a CSV of waypoints or GeoJSON LineString; see :func:`icing.route.read_route`).
+    route : icing.flight.route.Route or path
+        The planned route (a CSV of waypoints or GeoJSON LineString; see :func:`icing.flight.route.read_route`).
     soundings : atmosphere source, list of profiles, or paths/directories of sounding files
-    aircraft : preset name, TOML path or :class:`icing.aircraft.Aircraft`
+    aircraft : preset name, TOML path or :class:`icing.flight.aircraft.Aircraft`
     step_s : float
         Trajectory time step (s), default 60.
     offsets_ft : sequence of float
@@ -157,8 +158,8 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
 def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, departure=None,
                   offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, **options) -> list[Assessment]:
     """Screen many routes against one atmosphere source in one vectorised pass (see :func:`assess_route`)."""
-    from .aircraft import get_aircraft
-    from .route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_arrays, wind_points
+    from icing.flight.aircraft import get_aircraft
+    from icing.flight.route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_arrays, wind_points
 
     ac = get_aircraft(aircraft)
     source = atmosphere_source(soundings, **options)
@@ -243,7 +244,7 @@ def _reduce(ufunc, values, starts):
 
 def _segment_tables(routes, smp, used, source, alt_acc, ice):
     """Aggregate samples into segments for all routes at once (reduceat over contiguous segment runs)."""
-    from .envelopes import appendix_c_status, appendix_o_status
+    from icing.physics.envelopes import appendix_c_status, appendix_o_status
 
     route_i = smp["route"].to_numpy()
     leg = smp["leg"].to_numpy()
@@ -350,7 +351,7 @@ def _iso(ts) -> str:
 
 def _summary(route, ac, seg, step_s):
     """The route summary from its segments' columns (numpy arrays)."""
-    from .accretion import INTENSITY_NOTE
+    from icing.physics.accretion import INTENSITY_NOTE
 
     codes, acc, data, inten = seg["code"], seg["accretion_mm"], seg["data"], seg["intensity"]
     worst = None

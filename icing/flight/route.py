@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 from pyproj import Geod
 
-from .errors import RouteFormatError, UnitError
-from .units import FT, KT, parse_altitude, parse_speed
+from icing.errors import RouteFormatError, UnitError
+from icing.units import FT, KT, parse_altitude, parse_speed
 
 __all__ = ["Waypoint", "Route", "read_route", "trajectory", "plan_geometry", "wind_points", "timed_samples",
            "timed_arrays", "GEOD",
@@ -196,7 +196,7 @@ def trajectory(route: Route, aircraft, step_s: float = 60.0, wind_along_track=No
     Parameters
     ----------
     route : Route
-    aircraft : icing.aircraft.Aircraft
+    aircraft : icing.flight.aircraft.Aircraft
         True airspeeds (climb, cruise, descent) and vertical rates.
     step_s : float
         Time step, seconds (default one minute).

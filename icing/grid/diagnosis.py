@@ -1,7 +1,7 @@
 """Icing diagnostics over whole model grids, lazily and in chunks, on dask's own schedulers.
 
-:func:`diagnose_grid` runs the level diagnostics of :func:`icing.diagnose.diagnose_arrays` and, for a named
-aircraft, the accretion-rate potential of :func:`icing.accretion.accretion_core` on every column of a gridded
+:func:`diagnose_grid` runs the level diagnostics of :func:`icing.physics.diagnose.diagnose_arrays` and, for a named
+aircraft, the accretion-rate potential of :func:`icing.physics.accretion.accretion_core` on every column of a gridded
 profile Dataset (:func:`icing.io.model.read_model`) through one :func:`xarray.apply_ufunc` call with
 ``dask="parallelized"``: chunks across time and space, every level of a column in one chunk, nothing computed
 until the result is written (:func:`write_grid`, netCDF or zarr) or loaded. It adds the 2-D summaries of each
@@ -25,10 +25,11 @@ import sys
 import numpy as np
 import xarray as xr
 
-from . import CAUTION, thermo
-from .diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, _engine
-from .errors import ConfigError, IcingError
-from .units import KT, dataarray_to_unit
+from icing import CAUTION
+from icing.errors import ConfigError, IcingError
+from icing.physics import thermo
+from icing.physics.diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, _engine
+from icing.units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
            "grid_main", "add_grid_parser", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
@@ -125,12 +126,12 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     Parameters
     ----------
     pressure, temperature, dewpoint, height, cloud_liquid :
-        Pa, K, K, m, kg/m3 as :func:`icing.diagnose.diagnose_arrays` (pressure may be 1-D per level).
+        Pa, K, K, m, kg/m3 as :func:`icing.physics.diagnose.diagnose_arrays` (pressure may be 1-D per level).
     airspeed, body_diameter : float, optional
         True airspeed (m/s) and reference-body diameter (m) for the accretion potential; without them only
         the diagnostics and the freezing-level/supercooled summaries are computed.
     engine : {"auto", "numpy", "numba"}, optional
-        As :func:`icing.diagnose.diagnose_arrays`; the fused engine also computes the column summaries and the
+        As :func:`icing.physics.diagnose.diagnose_arrays`; the fused engine also computes the column summaries and the
         intensity codes and column maxima of the accretion potential (same results).
 
     Returns
@@ -139,10 +140,11 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
         The outputs of :func:`diagnose_arrays`, the summaries of :func:`column_summaries` and, with an
         aircraft, ``potential_rate`` (mm/h of ice thickness on the leading edge, Makkonen 2000; 0 where no
         supercooled liquid, NaN where the level is not valid), ``potential_intensity`` and ``ice_type`` (int8
-        codes of :func:`icing.accretion.intensity_code` and :func:`icing.accretion.ice_type_code`; -1 unknown),
+        codes of :func:`icing.physics.accretion.intensity_code` and
+        :func:`icing.physics.accretion.ice_type_code`; -1 unknown),
         ``max_potential_intensity`` and ``max_potential_rate`` per column.
     """
-    from .diagnose import _chain
+    from icing.physics.diagnose import _chain
 
     shape = np.broadcast_shapes(*(np.shape(a) for a in (pressure, temperature, dewpoint, height)))
     d, fused = _chain(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit, airmass=airmass,
@@ -153,7 +155,7 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
         d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
     if airspeed is None:
         return d
-    from .accretion import accretion_core, intensity_code
+    from icing.physics.accretion import accretion_core, intensity_code
 
     valid = d["valid"]
     icing = d["supercooled"] & valid & (d["lwc"] > 0)
@@ -167,7 +169,7 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
         rate.ravel()[idx] = core["thickness_rate"]
         ice.ravel()[idx] = core["ice_type"]
     if fused:
-        from .fused import potential_summary
+        from icing.physics.fused import potential_summary
 
         n = shape[-1]
         code, worst, max_rate = potential_summary(rate.reshape(-1, n), valid.reshape(-1, n))
@@ -193,7 +195,7 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
 def _aircraft(aircraft, airspeed_kt=None):
     if aircraft is None:
         return None, None, None
-    from .aircraft import get_aircraft
+    from icing.flight.aircraft import get_aircraft
 
     ac = get_aircraft(aircraft) if not hasattr(aircraft, "body_diameter_m") else aircraft
     tas = float(airspeed_kt if airspeed_kt is not None else ac.tas_cruise_kt) * KT
@@ -214,10 +216,10 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     cold_limit : float
         Coldest supercooled liquid, degC (default -40).
     airmass, thresholds :
-        As :func:`icing.diagnose.diagnose`.
+        As :func:`icing.physics.diagnose.diagnose`.
     engine : {"auto", "numpy", "numba"}, optional
-        As :func:`icing.diagnose.diagnose_arrays` (per chunk): numba's fused kernel when installed, for chunks
-        of at least :data:`icing.diagnose.FUSED_MIN_POINTS` level-points; the same results either way.
+        As :func:`icing.physics.diagnose.diagnose_arrays` (per chunk): numba's fused kernel when installed, for chunks
+        of at least :data:`icing.physics.diagnose.FUSED_MIN_POINTS` level-points; the same results either way.
     outputs : iterable of str, optional
         Only these of the computed fields (for example the column summaries): the chain still runs whole,
         but a chunk's level fields are dropped as soon as it is done instead of being held until every output
@@ -227,14 +229,14 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     -------
     xarray.Dataset
         Inputs ``pressure``, ``height``, ``temperature`` (and winds), the level fields of
-        :data:`icing.diagnose.LEVEL_OUTPUTS` (plus ``potential_rate``, ``potential_intensity``, ``ice_type``
+        :data:`icing.physics.diagnose.LEVEL_OUTPUTS` (plus ``potential_rate``, ``potential_intensity``, ``ice_type``
         with an aircraft) and the per-column fields ``precipitation_type``, ``freezing_level_count``,
         ``freezing_level_m``, ``freezing_levels`` (dim ``crossing``), ``supercooled_base_m``,
         ``supercooled_top_m`` (and ``max_potential_intensity``, ``max_potential_rate``). Attributes carry the
         settings, the model's ``quality`` record and the caution.
     """
-    from . import diagnose as _diagnose
-    from .layers import CLOUD_DEFAULTS
+    from icing.physics import diagnose as _diagnose
+    from icing.physics.layers import CLOUD_DEFAULTS
 
     diag_attrs = getattr(_diagnose, "_ATTRS", {})  # the level fields' units and long names, kept with them
 
@@ -501,7 +503,7 @@ def open_fields(paths, chunk_points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
 
     Without dask (the optional ``scale`` extra) the files are read whole into memory instead, with a note on
     stderr: fine for small grids such as the demo's."""
-    from .io.model import read_model
+    from icing.io.model import read_model
 
     lazy = _have_dask()
     if not lazy:
@@ -553,7 +555,7 @@ def grid_main(args) -> int:
     print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}, "
           f"engine {engine}", file=sys.stderr)
     if engine != "numpy" and not args.workers and not args.scheduler:
-        from . import fused
+        from icing.physics import fused
 
         print("icing grid: loading the compiled kernels (their first use on a machine compiles them, about "
               "20 s)", file=sys.stderr)

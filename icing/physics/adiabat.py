@@ -12,7 +12,7 @@ import functools
 
 import numpy as np
 
-from . import thermo
+from icing.physics import thermo
 
 __all__ = ["LV", "saturation_vapor_pressure_bolton", "saturation_mixing_ratio_bolton",
            "wet_bulb_potential_temperature_saturated", "moist_adiabat_temperature_from_theta_w",

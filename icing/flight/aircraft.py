@@ -22,9 +22,9 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import ConfigError, UnitError
-from .units import to_si as _to_si
-from .units import ureg
+from icing.errors import ConfigError, UnitError
+from icing.units import to_si as _to_si
+from icing.units import ureg
 
 __all__ = ["Aircraft", "PRESETS", "get_aircraft"]
 

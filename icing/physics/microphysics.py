@@ -9,8 +9,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
-from . import thermo
-from .errors import ConfigError
+from icing.errors import ConfigError
+from icing.physics import thermo
 
 __all__ = [
     "HOMOGENEOUS_FREEZING_K", "SUBADIABATIC_FACTOR", "DROPLET_NUMBER", "SPECTRAL_SHAPE_K", "RHO_WATER",

@@ -1,6 +1,6 @@
-"""The compiled column kernels of :mod:`icing.fused` (imported only when numba is installed).
+"""The compiled column kernels of :mod:`icing.physics.fused` (imported only when numba is installed).
 
-Every function mirrors the numpy function named in its comment; see :mod:`icing.fused` for the contract.
+Every function mirrors the numpy function named in its comment; see :mod:`icing.physics.fused` for the contract.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import math
 import numpy as np
 from numba import njit, types
 
-from . import layers, thermo
+from icing.physics import layers, thermo
 
 T0 = thermo.T0
 RD = thermo.RD
@@ -18,8 +18,8 @@ CP_D = thermo.CP_D
 EPS = thermo.EPSILON
 KAPPA = layers.KAPPA
 LN_T0 = float(np.log(thermo.T0))
-MODEL_CLOUD_MIN = 1e-5  # as icing.diagnose._MODEL_CLOUD_MIN
-# Precipitation phases of icing.layers.precipitation_type
+MODEL_CLOUD_MIN = 1e-5  # as icing.physics.diagnose._MODEL_CLOUD_MIN
+# Precipitation phases of icing.physics.layers.precipitation_type
 _NONE, _SN, _RA, _FZRA, _PL, _FZRAPL, _RASN, _RAPL, _FZDZ, _DZ, _MELTED = 0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10
 
 
@@ -39,7 +39,7 @@ potential_sig = types.void(ro2, rob2, f8, f8, f8, f8, wi8_2, wi8_1, w1)
 
 @jit
 def ln_esw(t, lnt):
-    # icing.diagnose._ln_esw: ln e_w of Murphy and Koop (2005) eq. 10, tanh as 1 - 2/(exp(2u) + 1)
+    # icing.physics.diagnose._ln_esw: ln e_w of Murphy and Koop (2005) eq. 10, tanh as 1 - 2/(exp(2u) + 1)
     inv = 1.0 / t
     th = math.exp((t - 218.8) * 0.083)
     th += 1.0
@@ -121,7 +121,7 @@ def fmaximum(a, b):  # np.maximum, NaN propagates
 
 @jit
 def bilinear(flat, ncol, a0, da, na, v, l0, dl, nl, lnp):
-    # icing.adiabat._bilinear on a (axis, ln p) table raveled to ``flat``
+    # icing.physics.adiabat._bilinear on a (axis, ln p) table raveled to ``flat``
     f0 = clip((v - a0) / da, 0.0, na - 1.000001)
     f1 = clip((lnp - l0) / dl, 0.0, nl - 1.000001)
     if not (np.isfinite(f0) and np.isfinite(f1)):  # a NaN input gives NaN (never an index out of the table)
@@ -137,17 +137,17 @@ def bilinear(flat, ncol, a0, da, na, v, l0, dl, nl, lnp):
     return a * (1.0 - w0) + b * w0
 
 @jit
-def bolton_es(t):  # icing.adiabat.saturation_vapor_pressure_bolton
+def bolton_es(t):  # icing.physics.adiabat.saturation_vapor_pressure_bolton
     return 611.2 * math.exp(17.67 * (t - 273.15) / (t - 29.65))
 
 @jit
-def bolton_rs(p, t):  # icing.adiabat.saturation_mixing_ratio_bolton
+def bolton_rs(p, t):  # icing.physics.adiabat.saturation_mixing_ratio_bolton
     es = bolton_es(t)
     d = p - es
     return EPS * es / (d if d > 1e-3 else 1e-3)
 
 @jit
-def lwc_adiabatic(p, tp, rt):  # icing.adiabat.adiabatic_liquid_water_content
+def lwc_adiabatic(p, tp, rt):  # icing.physics.adiabat.adiabatic_liquid_water_content
     es = bolton_es(tp)
     rho_d = (p - es) / (RD * tp)
     d = p - es
@@ -156,7 +156,7 @@ def lwc_adiabatic(p, tp, rt):  # icing.adiabat.adiabatic_liquid_water_content
     return rho_d * (x if x > 0.0 else 0.0)
 
 @jit
-def runs(mask, n, starts, ends):  # icing.layers._runs for one column; returns the count
+def runs(mask, n, starts, ends):  # icing.physics.layers._runs for one column; returns the count
     nr = 0
     k = 0
     while k < n:
@@ -170,7 +170,7 @@ def runs(mask, n, starts, ends):  # icing.layers._runs for one column; returns t
     return nr
 
 @jit
-def run_bounds(z, zb, s, e, n):  # icing.layers._run_bounds
+def run_bounds(z, zb, s, e, n):  # icing.physics.layers._run_bounds
     lo = zb[s - 1] if s > 0 else np.nan
     hi = zb[e] if e < n - 1 else np.nan
     if not np.isfinite(lo):
@@ -196,7 +196,7 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
     starts, ends, gst, gen, lid = scr_i[0], scr_i[1], scr_i[2], scr_i[3], scr_i[4]
     moist, gap, model, dz_src, fin, warm, rain2, carry_b = (scr_b[0], scr_b[1], scr_b[2], scr_b[3],
                                                             scr_b[4], scr_b[5], scr_b[6], scr_b[7])
-    # --- humidity (icing.diagnose._relative_humidities) and the height above the lowest level
+    # --- humidity (icing.physics.diagnose._relative_humidities) and the height above the lowest level
     z0 = np.nan
     for k in range(n):
         if np.isfinite(z[k]):
@@ -317,7 +317,7 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
             if model[k] and cl[k] >= MODEL_CLOUD_MIN:
                 cloud[k] = True
             cloud[k] = cloud[k] and fin[k]
-    # --- adiabatic LWC from each layer base (icing.adiabat.adiabatic_lwc_from_bases) and cloud kind
+    # --- adiabatic LWC from each layer base (icing.physics.adiabat.adiabatic_lwc_from_bases) and cloud kind
     nr = runs(cloud, n, starts, ends)
     for r in range(nr):
         s, e = starts[r], ends[r]
@@ -404,14 +404,14 @@ def column(p, lnp, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heigh
             cold = fin[k] and t[k] <= T0
             carry = (carry and cold) or (dz_src[k] and cloud[k] and cold)
             carry_b[k] = carry
-    # --- precipitation type (icing.layers.precipitation_type, Bourgouin 2000). Without a precipitation
+    # --- precipitation type (icing.physics.layers.precipitation_type, Bourgouin 2000). Without a precipitation
     # source the phase stays "none" through every layer, so the layers are worked out only with one.
     nl = 1 if any_t else 0  # (only whether there is a layer matters without a source)
     phase = _NONE
     if src_level >= 0:
         for k in range(n):
             area[k] = 0.0
-        if any_warm and any_cold:  # icing.layers._energy_area
+        if any_warm and any_cold:  # icing.physics.layers._energy_area
             for k in range(n):
                 lnth[k] = lnt[k] - KAPPA * lnp[k]
             for k in range(n - 1):
@@ -571,7 +571,7 @@ def block(p, t, td, z, cl, has_cl, td_raw, t_raw, z_raw, cold_limit, heights, mi
 
 @njit(potential_sig, nogil=True, cache=True, error_model="numpy")
 def potential(rate, valid, t1, t2, t3, per_in_h, code, worst, max_rate):
-    # icing.accretion.intensity_code per level, and grid_core's column maximum rules
+    # icing.physics.accretion.intensity_code per level, and grid_core's column maximum rules
     npro, n = rate.shape
     for i in range(npro):
         w = -1

@@ -1,20 +1,21 @@
 """The diagnosis chain fused into one compiled pass over each column (optional: needs numba).
 
-:func:`icing.diagnose.diagnose_arrays` chains the physics as whole-array numpy operations: clear, but a few
+:func:`icing.physics.diagnose.diagnose_arrays` chains the physics as whole-array numpy operations: clear, but a few
 hundred passes over memory and a temporary array for each. This module does the same arithmetic column by
-column in one compiled loop (numba; the kernels are in :mod:`icing._fused_kernels`), reading the inputs once
+column in one compiled loop (numba; the kernels are in :mod:`icing.physics._fused_kernels`), reading the inputs once
 and writing each output once, and is used for large inputs when numba is installed (``engine="auto"``;
 ``engine="numpy"`` forces the array version). It is not a second model: every step of the kernels mirrors a
 numpy function named beside it, with the same formulas,
 constants and tables, and ``tests/test_fused.py`` checks that both engines give the same results (flags equal,
-numbers to rounding). The physics and its sources are documented where it lives: :mod:`icing.layers`,
-:mod:`icing.adiabat`, :mod:`icing.microphysics`, :mod:`icing.diagnose`, :func:`icing.grid.column_summaries`
-and :func:`icing.accretion.intensity_code`.
+numbers to rounding). The physics and its sources are documented where it lives: :mod:`icing.physics.layers`,
+:mod:`icing.physics.adiabat`, :mod:`icing.physics.microphysics`, :mod:`icing.physics.diagnose`,
+:func:`icing.grid.column_summaries`
+and :func:`icing.physics.accretion.intensity_code`.
 
 Only pressure-sorted columns come here (pressure decreasing along the level axis, gaps already filled by
-:func:`icing.diagnose._fill_gaps`): :func:`icing.diagnose.diagnose_arrays` sorts them first and puts the
+:func:`icing.physics.diagnose._fill_gaps`): :func:`icing.physics.diagnose.diagnose_arrays` sorts them first and puts the
 results back in the input order. The accretion heat balance of the supercooled levels stays in numpy
-(:func:`icing.accretion.accretion_core`, on those levels only).
+(:func:`icing.physics.accretion.accretion_core`, on those levels only).
 """
 
 from __future__ import annotations
@@ -23,8 +24,8 @@ import functools
 
 import numpy as np
 
-from . import adiabat, layers, microphysics
-from .accretion import _IN_PER_H, INTENSITY_THRESHOLDS_IN_PER_H
+from icing.physics import adiabat, layers, microphysics
+from icing.physics.accretion import _IN_PER_H, INTENSITY_THRESHOLDS_IN_PER_H
 
 __all__ = ["available", "diagnose_block", "empty_outputs", "potential_summary", "ENGINES"]
 
@@ -44,7 +45,7 @@ def available() -> bool:
 @functools.lru_cache(maxsize=1)
 def _kernels():
     """The compiled kernels (numba compiles them once and caches them on disk; numba is imported only here)."""
-    from . import _fused_kernels
+    from icing.physics import _fused_kernels
 
     return _fused_kernels.block, _fused_kernels.potential
 
@@ -63,7 +64,7 @@ def _factor(value, default):
 
 def empty_outputs(npro, n, summaries=False):
     """Output arrays of :func:`diagnose_block` for ``npro`` columns of ``n`` levels (the level fields of
-    :data:`icing.diagnose.LEVEL_OUTPUTS` but ``valid``, the per-column ones and, with ``summaries``, those of
+    :data:`icing.physics.diagnose.LEVEL_OUTPUTS` but ``valid``, the per-column ones and, with ``summaries``, those of
     :func:`icing.grid.column_summaries`)."""
     out = {"rh_water": np.empty((npro, n)), "rh_ice": np.empty((npro, n)), "in_cloud": np.empty((npro, n), bool),
            "supercooled": np.empty((npro, n), bool), "liquid_fraction": np.empty((npro, n)),
@@ -72,7 +73,7 @@ def empty_outputs(npro, n, summaries=False):
            "precipitation_type": np.empty(npro, np.int8), "freezing_level_count": np.empty(npro, np.int64),
            "valid": np.empty((npro, n), bool)}
     if summaries:
-        from .grid import N_FREEZING_LEVELS
+        from icing.grid import N_FREEZING_LEVELS
 
         out.update({"freezing_level_m": np.empty(npro), "freezing_levels": np.empty((npro, N_FREEZING_LEVELS)),
                     "supercooled_base_m": np.empty(npro), "supercooled_top_m": np.empty(npro)})
@@ -81,13 +82,13 @@ def empty_outputs(npro, n, summaries=False):
 
 def diagnose_block(p, t, td, z, cl, td_raw, t_raw, z_raw, cold_limit, n_drop, airmass, prm, cap_table,
                    summaries=False, out=None):
-    """:func:`icing.diagnose._diagnose_sorted` (and, with ``summaries``, the column summaries of
+    """:func:`icing.physics.diagnose._diagnose_sorted` (and, with ``summaries``, the column summaries of
     :func:`icing.grid.column_summaries` on ``t_raw``/``z_raw``) for a block of pressure-sorted columns (P, n).
 
-    ``t``, ``td``, ``z`` have their gaps filled (:func:`icing.diagnose._fill_gaps`; the dewpoint is held to the
+    ``t``, ``td``, ``z`` have their gaps filled (:func:`icing.physics.diagnose._fill_gaps`; the dewpoint is held to the
     temperature here), ``t_raw``, ``td_raw``, ``z_raw`` are as measured (for ``valid`` and the summaries).
     ``p`` may be one shared row (1, n) or (P, n); ``cl`` None or (P, n); ``cap_table`` the (temperature,
-    cap) table of :func:`icing.diagnose._cap_table` (used when ``prm["stratiform_cap"]``); ``out`` arrays
+    cap) table of :func:`icing.physics.diagnose._cap_table` (used when ``prm["stratiform_cap"]``); ``out`` arrays
     from :func:`empty_outputs` (or rows of them) to write into. Returns the outputs, with ``valid``."""
     block, _ = _kernels()
     npro, n = t.shape

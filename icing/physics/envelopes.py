@@ -21,8 +21,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import to_si as _to_si
-from .units import ureg
+from icing.units import to_si as _to_si
+from icing.units import ureg
 
 __all__ = [
     "CONTINUOUS_MAX_MVD_UM", "CONTINUOUS_MAX_TEMPERATURE_C", "CONTINUOUS_MAX_LWC_G_M3", "APPENDIX_C",

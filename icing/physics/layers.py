@@ -1,7 +1,7 @@
 """Layers of a profile: cloud layers from relative humidity, freezing levels, warm layers aloft, the
 precipitation type under them, and the supercooled-liquid layer table.
 
-The array functions work on plain SI arrays of shape (profile, level) (see :func:`icing.diagnose.
+The array functions work on plain SI arrays of shape (profile, level) (see :func:`icing.physics.diagnose.
 diagnose_arrays` for any leading shape) with pressure decreasing along the level axis. The table functions
 (:func:`supercooled_layers`, :func:`cloud_layers`, :func:`freezing_levels`) take one canonical profile
 Dataset and return a :class:`pandas.DataFrame`.
@@ -12,8 +12,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from . import thermo
-from .units import FT
+from icing.physics import thermo
+from icing.units import FT
 
 __all__ = [
     "ZHANG_HEIGHTS_M", "ZHANG_MIN_RH", "ZHANG_MAX_RH", "ZHANG_INTER_RH", "CLOUD_DEFAULTS",
@@ -43,7 +43,7 @@ CLOUD_DEFAULTS = {
     "low_cloud_limit_m": 2000.0,
     "liquid_rh": None,               # RH over water for liquid to be possible; None: the min_rh threshold
     "convective_excess_k": 0.5,      # our own choice: parcel from the base warmer than the air by this = convective
-    "stratiform_factor": None,       # sub-adiabatic factors (see icing.microphysics.SUBADIABATIC_FACTOR)
+    "stratiform_factor": None,       # sub-adiabatic factors (see icing.physics.microphysics.SUBADIABATIC_FACTOR)
     "convective_factor": None,
     "stratiform_cap": True,          # stratiform LWC at most the Part 25 Appendix C continuous maximum (see diagnose)
     "drizzle_top_temperature": 263.15,  # K, warm-topped cloud: Huffman and Norman (1988), Rauber et al. (2000)
@@ -430,11 +430,11 @@ _FLAG_WORDS = {"height_filled": "height filled", "dewpoint_derived": "dewpoint d
 
 
 def _single(profile, **params):
-    from .diagnose import diagnose
+    from icing.physics.diagnose import diagnose
 
     extra = [d for d in profile.dims if d != "level" and profile.sizes[d] > 1]
     if extra:
-        from .errors import ProfileQualityError
+        from icing.errors import ProfileQualityError
 
         raise ProfileQualityError(f"a layer table is for one profile; this one has dimensions {extra}; select "
                                   "one profile first (for example ds.isel(profile=0))")
@@ -444,7 +444,7 @@ def _single(profile, **params):
 
 def _quality_text(ds, lo, hi):
     """Words for the filled, changed or unusable levels among levels lo..hi (inclusive)."""
-    from .profile import QC_FLAGS
+    from icing.profile import QC_FLAGS
 
     notes = []
     if "qc_flag" in ds:
@@ -519,7 +519,7 @@ SUPERCOOLED_COLUMNS = ["base_height_m", "top_height_m", "base_height_ft", "top_h
 def supercooled_layers(profile, **params) -> pd.DataFrame:
     """Supercooled-liquid layers of one profile, one row a layer (heights in m and ft).
 
-    Parameters are those of :func:`icing.diagnose.diagnose`. Columns: ``base_height_m``, ``top_height_m``,
+    Parameters are those of :func:`icing.physics.diagnose.diagnose`. Columns: ``base_height_m``, ``top_height_m``,
     ``base_height_ft``, ``top_height_ft``, ``base_pressure_hpa``, ``top_pressure_hpa``,
     ``base_temperature_c``, ``top_temperature_c``, ``thickness_m``, ``max_lwc_g_m3``, ``mvd_um`` (at the level
     of largest LWC), ``cloud_top_temperature_c`` (of the cloud layer holding it), ``kind`` (stratiform or

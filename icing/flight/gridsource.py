@@ -1,4 +1,4 @@
-"""A model grid as an atmosphere source: the same ``sample`` as :class:`icing.sources.SoundingSource`.
+"""A model grid as an atmosphere source: the same ``sample`` as :class:`icing.flight.sources.SoundingSource`.
 
 The grid is diagnosed once (:func:`icing.grid.diagnose_grid`, lazily when the grid is dask-backed: only the
 chunks a route touches are ever computed, and each is computed once) and the diagnostics are interpolated at
@@ -24,9 +24,9 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-from .errors import IcingError
-from .layers import CLOUD_DEFAULTS
-from .sources import EARTH_RADIUS_M
+from icing.errors import IcingError
+from icing.flight.sources import EARTH_RADIUS_M
+from icing.physics.layers import CLOUD_DEFAULTS
 
 __all__ = ["GridSource"]
 
@@ -56,7 +56,7 @@ def _bracket(axis, x, tol=0.0):
 
 
 class GridSource:
-    """Gridded model fields as an atmosphere source for :func:`icing.assess.assess_route`.
+    """Gridded model fields as an atmosphere source for :func:`icing.flight.assess.assess_route`.
 
     Parameters
     ----------
@@ -74,10 +74,10 @@ class GridSource:
     kind = "model"
 
     def __init__(self, model, *, chunks=None, time_tolerance_hours=0.0, batch=4096, **diagnose_options):
-        from .grid import diagnose_grid
+        from icing.grid import diagnose_grid
 
         if isinstance(model, str | Path):
-            from .io.model import read_model
+            from icing.io.model import read_model
 
             model = read_model(model, chunks=chunks)
         for c in ("time", "latitude", "longitude", "level"):
@@ -164,8 +164,8 @@ class GridSource:
 
     def sample(self, latitude, longitude, time, pressure=None, height=None):
         """Diagnostics at sample points: the same arguments and output keys as
-        :meth:`icing.sources.SoundingSource.sample`, with ``used`` of shape (samples, model times)."""
-        from .sources import sample_points
+        :meth:`icing.flight.sources.SoundingSource.sample`, with ``used`` of shape (samples, model times)."""
+        from icing.flight.sources import sample_points
 
         lat, lon, ts, p_in, z_in = sample_points(latitude, longitude, time, pressure, height)
         n = lat.size
@@ -214,7 +214,7 @@ class GridSource:
                                      np.nan)[:, None], K.shape).copy()
         zrows = ~np.isfinite(x)
         if zrows.any():
-            from .thermo import interp_last_axis
+            from icing.physics.thermo import interp_last_axis
 
             zc = st["height"][rows]
             xz = interp_last_axis(z_in[:, None, None] * np.ones(K.shape + (1,)), zc, lnp)[..., 0]

@@ -1,6 +1,6 @@
 """Atmosphere sources: where a route gets its atmosphere from.
 
-:class:`SoundingSource` holds a set of soundings, diagnoses each once (:func:`icing.diagnose.diagnose`) and
+:class:`SoundingSource` holds a set of soundings, diagnoses each once (:func:`icing.physics.diagnose.diagnose`) and
 samples the diagnostics at any number of points (latitude, longitude, time, and pressure or height).
 
 Matching scheme (documented in the README):
@@ -22,8 +22,8 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from .errors import IcingError
-from .profile import stack_profiles
+from icing.errors import IcingError
+from icing.profile import stack_profiles
 
 __all__ = ["SoundingSource", "EARTH_RADIUS_M", "sample_points"]
 
@@ -63,14 +63,14 @@ class SoundingSource:
     max_stations : int
         At most this many nearest stations contribute to a sample (default 3).
     diagnose_options : dict
-        Passed to :func:`icing.diagnose.diagnose` (cold limit, airmass, thresholds).
+        Passed to :func:`icing.physics.diagnose.diagnose` (cold limit, airmass, thresholds).
     """
 
     kind = "soundings"
 
     def __init__(self, profiles, *, max_distance_km=300.0, max_age_hours=12.0, max_stations=3,
                  **diagnose_options):
-        from .diagnose import diagnose
+        from icing.physics.diagnose import diagnose
 
         self.notes = []
         if isinstance(profiles, xr.Dataset) and "profile" in profiles.dims:
