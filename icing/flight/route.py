@@ -7,8 +7,9 @@ descends at its descent rate so as to arrive at the next waypoint's altitude, an
 
 from __future__ import annotations
 
+import csv
 import json
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -46,7 +47,19 @@ class Waypoint:
 
 @dataclass
 class Route:
-    """An ordered list of waypoints and a departure time (UTC)."""
+    """An ordered list of waypoints and a departure time (UTC).
+
+    ``departure`` given explicitly wins over the route's own times: when the first waypoint has a time too, every
+    waypoint time is moved by the same amount (so the timed legs keep their durations) and a note in
+    :attr:`notes` says so. Without ``departure`` the first waypoint's time is the departure; a route with
+    neither is refused.
+
+    Attributes
+    ----------
+    notes : list of str
+        What the reader ignored or decided (unknown columns or properties, route times moved to a departure
+        given); shown in the assessment's summary (``summary["notes"]``).
+    """
 
     waypoints: list[Waypoint]
     departure: pd.Timestamp | None = None
@@ -55,23 +68,48 @@ class Route:
     notes: list[str] = field(default_factory=list)
 
     def __post_init__(self):
+        file = self.source or None
         if len(self.waypoints) < 2:
-            raise RouteFormatError("a route needs at least two waypoints", file=self.source or None)
-        if self.departure is None:
-            self.departure = self.waypoints[0].time
-        if self.departure is None:
-            raise RouteFormatError("no departure time: give a time at the first waypoint or a departure",
-                                   file=self.source or None)
-        self.departure = _utc(self.departure)
+            raise RouteFormatError("a route needs at least two waypoints", file=file)
+        for i, w in enumerate(self.waypoints):
+            _check_waypoint(w, file, None, f"waypoint {i + 1} ({w.name}): ")
+        for i, (a, b) in enumerate(zip(self.waypoints[:-1], self.waypoints[1:], strict=True)):
+            if _same_place(a, b):
+                raise RouteFormatError(f"waypoints {i + 1} ({a.name}) and {i + 2} ({b.name}) are at the same "
+                                       "position: a leg needs a length", file=file)
+        timed = [(i, _utc(w.time)) for i, w in enumerate(self.waypoints) if w.time is not None]
+        for (i, a), (j, b) in zip(timed[:-1], timed[1:], strict=True):
+            if not b > a:
+                raise RouteFormatError(f"waypoint {j + 1} ({self.waypoints[j].name}) time {_iso(b)} is not after "
+                                       f"waypoint {i + 1} ({self.waypoints[i].name}) time {_iso(a)}", file=file)
+        first = self.waypoints[0].time
+        given = None if self.departure is None else _checked_time(self.departure, file, None, "departure")
+        if given is None and first is None:
+            raise RouteFormatError("no departure time: give a time at the first waypoint or a departure", file=file)
+        if given is not None and first is not None and given != _utc(first):
+            shift = given - _utc(first)
+            self.waypoints = [w if w.time is None else replace(w, time=_utc(w.time) + shift)
+                              for w in self.waypoints]
+            for i, w in enumerate(self.waypoints):
+                if w.time is not None:
+                    _checked_time(w.time, file, None, f"waypoint {i + 1} ({w.name}) time moved to the departure")
+            hours = shift / pd.Timedelta(hours=1)
+            self.notes.append(f"departure {_iso(given)} given: the route's own times (first {_iso(_utc(first))}) "
+                              f"moved by {hours:+.2f} h")
+        self.departure = given if given is not None else _utc(first)
 
     @classmethod
     def from_points(cls, points, departure=None, name=""):
         """Build a route from ``(name, lat, lon, altitude)`` tuples; altitude like ``"FL140"`` or ``9000``."""
         wps = []
-        for p in points:
-            alt, fl = parse_altitude(p[3])
-            wps.append(Waypoint(str(p[0]), float(p[1]), float(p[2]), alt, fl))
-        return cls(wps, departure=None if departure is None else _utc(departure), name=name)
+        for i, p in enumerate(points):
+            try:
+                alt, fl = parse_altitude(p[3])
+                lat, lon = float(p[1]), float(p[2])
+            except (UnitError, ValueError, TypeError, IndexError) as exc:
+                raise RouteFormatError(f"point {i + 1}: {exc}") from None
+            wps.append(Waypoint(str(p[0]), lat, lon, alt, fl))
+        return cls(wps, departure=departure, name=name)
 
     def leg_distances_m(self) -> np.ndarray:
         lat = np.array([w.latitude for w in self.waypoints])
@@ -80,38 +118,134 @@ class Route:
         return np.asarray(d, dtype=float)
 
 
+# Physical and aircraft limits of a waypoint (common practice, our choice): the lowest land surface is about
+# 1,400 ft below sea level and the highest flight levels of civil aircraft are near FL600.
+ALTITUDE_LIMITS_FT = (-2000.0, 60000.0)
+SPEED_LIMITS_KT = (40.0, 700.0)
+# Times a route may carry: sounding archives begin in the 20th century, and pandas' nanosecond times end in 2262.
+TIME_LIMITS = (pd.Timestamp("1900-01-01T00:00Z"), pd.Timestamp("2200-01-01T00:00Z"))
+
+
 def _utc(t) -> pd.Timestamp:
     ts = pd.Timestamp(t)
-    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+    ts = ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+    return ts.as_unit("ns")
 
 
-def _check_position(lat, lon, file, line):
-    if not (-90.0 <= lat <= 90.0):
-        raise RouteFormatError(f"latitude {lat} outside -90..90", file=file, line=line)
-    if not (-180.0 <= lon <= 360.0):
-        raise RouteFormatError(f"longitude {lon} outside -180..360", file=file, line=line)
+def _iso(ts) -> str:
+    return ts.strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _checked_time(value, file, line, what):
+    """A UTC Timestamp from ISO 8601 text (or a time object), within :data:`TIME_LIMITS`."""
+    if isinstance(value, bool | int | float | np.integer | np.floating):
+        raise RouteFormatError(f"{what} {value!r} is not an ISO 8601 time (like 2026-01-15T06:00Z)", file=file,
+                               line=line)
+    try:
+        ts = pd.Timestamp(value)
+        if ts is pd.NaT or pd.isna(ts):
+            raise ValueError
+        ts = ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+    except (ValueError, TypeError, OverflowError, pd.errors.OutOfBoundsDatetime):
+        raise RouteFormatError(f"{what} {value!r} is not an ISO 8601 time (like 2026-01-15T06:00Z)", file=file,
+                               line=line) from None
+    lo, hi = TIME_LIMITS
+    if not lo <= ts < hi:
+        raise RouteFormatError(f"{what} {value!r} outside the years {lo.year}-{hi.year - 1}", file=file, line=line)
+    return ts.as_unit("ns")
+
+
+def _check_position(lat, lon, file, line, where=""):
+    if not np.isfinite(lat) or not -90.0 <= lat <= 90.0:
+        raise RouteFormatError(f"{where}latitude {lat} outside -90..90", file=file, line=line)
+    # East longitudes 180..360 are the same places (the 0..360 convention of many model grids).
+    if not np.isfinite(lon) or not -180.0 <= lon <= 360.0:
+        raise RouteFormatError(f"{where}longitude {lon} outside -180..360", file=file, line=line)
+
+
+def _check_altitude(alt_ft, file, line, where=""):
+    lo, hi = ALTITUDE_LIMITS_FT
+    if not np.isfinite(alt_ft) or not lo <= alt_ft <= hi:
+        raise RouteFormatError(f"{where}altitude {alt_ft:.0f} ft outside {lo:.0f}..{hi:.0f} ft", file=file,
+                               line=line)
+
+
+def _check_waypoint(w: Waypoint, file, line, where=""):
+    _check_position(w.latitude, w.longitude, file, line, where)
+    _check_altitude(w.altitude_ft, file, line, where)
+    lo, hi = SPEED_LIMITS_KT
+    if w.speed_kt is not None and (not np.isfinite(w.speed_kt) or not lo <= w.speed_kt <= hi):
+        raise RouteFormatError(f"{where}speed {w.speed_kt:.0f} kt outside {lo:.0f}..{hi:.0f} kt", file=file,
+                               line=line)
+    if w.time is not None:
+        _checked_time(w.time, file, line, f"{where}time")
+
+
+def _same_place(a: Waypoint, b: Waypoint) -> bool:
+    _, _, d = GEOD.inv(a.longitude, a.latitude, b.longitude, b.latitude)
+    return not d >= 1.0  # under a metre (or not a number)
 
 
 def read_route(path, departure=None) -> Route:
     """Read a route from a CSV of waypoints or a GeoJSON LineString with Z.
 
-    CSV header: ``name,latitude,longitude,altitude`` and optional ``speed_kt`` and ``time`` columns; altitude
-    as feet MSL (``9000``) or a flight level (``FL140``); time ISO 8601 UTC, needed at the first waypoint unless
-    ``departure`` is given. GeoJSON: a Feature or FeatureCollection with one LineString whose coordinates are
-    ``[lon, lat, altitude_m]`` (RFC 7946 order, altitude in metres), with optional properties ``names``,
-    ``departure`` and ``flight_levels`` (a list of booleans).
+    CSV header: ``name,latitude,longitude,altitude`` and optional ``speed_kt`` and ``time`` columns (any order,
+    any case; other columns are ignored and listed in the route's ``notes``); cells separated by commas, or by
+    semicolons or tabs when the header has no comma; UTF-8 with or without a byte-order mark (or UTF-16 with
+    one), any line ends; lines starting with ``#`` are comments. Altitude as feet MSL (``9000``), ``2500 m``
+    or a flight level (``FL140``), within -2,000..60,000 ft; speed 40..700 kt; time ISO 8601 (UTC unless it
+    says otherwise).
+
+    GeoJSON (RFC 7946): a FeatureCollection with exactly one LineString feature, a Feature, or a bare
+    LineString; coordinates ``[lon, lat, altitude_m]`` (altitude in metres MSL), optional properties ``names``
+    (one per coordinate), ``flight_levels`` (one boolean per coordinate: the altitude is a pressure altitude)
+    and ``departure`` (ISO 8601); other properties are listed in the notes.
+
+    ``departure`` (ISO 8601 or a time), when given, is the departure whatever the file says: a departure in the
+    file (GeoJSON property) is replaced, and waypoint times (CSV) are all moved by the same amount so that the
+    timed legs keep their durations; the route's ``notes`` say so. Without it the file's own first time is the
+    departure, and a file without one is refused.
+
+    Raises
+    ------
+    RouteFormatError
+        For anything that cannot be read, naming the file, the line (CSV) or the feature and coordinate
+        (GeoJSON), and the reason.
     """
     path = Path(path)
     if not path.exists():
         raise RouteFormatError("no such route file", file=path)
-    text = path.read_text(errors="replace")
+    if not path.is_file():
+        raise RouteFormatError("is a directory, not a route file" if path.is_dir() else "not a regular file",
+                               file=path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise RouteFormatError(f"cannot be read: {exc.strerror or exc}", file=path) from None
+    text = _decode(raw)
     if not text.strip():
         raise RouteFormatError("route file is empty", file=path, line=1)
-    if text.lstrip().startswith("{"):
-        route = _read_geojson(text, path, departure)
-    else:
-        route = _read_csv(text, path, departure)
-    return route
+    if "\x00" in text:
+        raise RouteFormatError("not a text file (contains NUL bytes)", file=path)
+    if departure is not None:
+        departure = _checked_time(departure, None, None, "departure")
+    if text.lstrip().startswith(("{", "[")):
+        return _read_geojson(text, path, departure)
+    return _read_csv(text, path, departure)
+
+
+def _decode(raw: bytes) -> str:
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        return raw.decode("utf-16", errors="replace")
+    return raw.decode("utf-8-sig", errors="replace")
+
+
+_CSV_COLUMNS = ("name", "latitude", "longitude", "altitude", "speed_kt", "time")
+
+
+def _split(line: str, sep: str) -> list[str]:
+    cells = next(csv.reader([line], delimiter=sep, skipinitialspace=True), [])
+    return [c.strip() for c in cells]
 
 
 def _read_csv(text, path, departure):
@@ -119,16 +253,26 @@ def _read_csv(text, path, departure):
     if not lines:
         raise RouteFormatError("no header row", file=path, line=1)
     hno, header = lines[0]
-    cols = [c.strip().lower() for c in header.split(",")]
+    sep = "," if "," in header else ";" if ";" in header else "\t" if "\t" in header else ","
+    try:
+        cols = [c.lower() for c in _split(header, sep)]
+    except csv.Error as exc:
+        raise RouteFormatError(f"header: {exc}", file=path, line=hno) from None
     for need in ("name", "latitude", "longitude", "altitude"):
         if need not in cols:
             raise RouteFormatError(f"missing column {need!r} (header must be name,latitude,longitude,altitude"
                                    "[,speed_kt][,time])", file=path, line=hno)
-    known = {"name", "latitude", "longitude", "altitude", "speed_kt", "time"}
-    notes = [f"column {c!r} ignored" for c in cols if c not in known]
+    dup = sorted({c for c in cols if cols.count(c) > 1 and c})
+    if dup:
+        raise RouteFormatError(f"column {dup[0]!r} appears twice", file=path, line=hno)
+    notes = [f"{path.name}: column {c!r} ignored (known columns: {', '.join(_CSV_COLUMNS)})"
+             for c in cols if c not in _CSV_COLUMNS]
     wps = []
     for no, s in lines[1:]:
-        cells = [c.strip() for c in s.split(",")]
+        try:
+            cells = _split(s, sep)
+        except csv.Error as exc:
+            raise RouteFormatError(str(exc), file=path, line=no) from None
         if len(cells) != len(cols):
             raise RouteFormatError(f"{len(cells)} cells for {len(cols)} columns", file=path, line=no)
         row = dict(zip(cols, cells, strict=True))
@@ -140,25 +284,27 @@ def _read_csv(text, path, departure):
         try:
             alt, fl = parse_altitude(row["altitude"])
             spd = parse_speed(row["speed_kt"]) if row.get("speed_kt") else None
-        except UnitError as exc:
+        except (UnitError, ValueError) as exc:
             raise RouteFormatError(str(exc), file=path, line=no) from None
-        if not -2000 <= alt <= 60000:
-            raise RouteFormatError(f"altitude {alt:.0f} ft outside -2000..60000 ft", file=path, line=no)
-        if spd is not None and not 40 <= spd <= 700:
-            raise RouteFormatError(f"speed {spd:.0f} kt outside 40..700 kt", file=path, line=no)
-        t = None
-        if row.get("time"):
-            try:
-                t = _utc(row["time"])
-            except (ValueError, TypeError):
-                raise RouteFormatError(f"time {row['time']!r} is not ISO 8601", file=path, line=no) from None
-        wps.append(Waypoint(row["name"] or f"WP{len(wps) + 1}", lat, lon, alt, fl, spd, t))
-    if departure is not None:
-        try:
-            departure = _utc(departure)
-        except (ValueError, TypeError):
-            raise RouteFormatError(f"departure {departure!r} is not ISO 8601") from None
+        t = _checked_time(row["time"], path, no, "time") if row.get("time") else None
+        wp = Waypoint(row["name"] or f"WP{len(wps) + 1}", lat, lon, alt, fl, spd, t)
+        _check_waypoint(wp, path, no)
+        wps.append(wp)
+    return _route(wps, departure, path, notes)
+
+
+def _route(wps, departure, path, notes):
+    """The Route of a reader; its own checks (count, legs, departure) name the file."""
     return Route(wps, departure=departure, name=path.stem, source=str(path), notes=notes)
+
+
+def _number(v) -> bool:
+    if not isinstance(v, int | float) or isinstance(v, bool):
+        return False
+    try:
+        return bool(np.isfinite(float(v)))
+    except OverflowError:  # an integer too large for a float
+        return False
 
 
 def _read_geojson(text, path, departure):
@@ -166,24 +312,93 @@ def _read_geojson(text, path, departure):
         obj = json.loads(text)
     except json.JSONDecodeError as exc:
         raise RouteFormatError(f"invalid JSON: {exc.msg}", file=path, line=exc.lineno, column=exc.colno) from None
-    feats = obj.get("features", [obj]) if isinstance(obj, dict) else []
-    lines = [f for f in feats if isinstance(f, dict) and (f.get("geometry") or {}).get("type") == "LineString"]
-    if len(lines) != 1:
-        raise RouteFormatError(f"expected exactly one LineString feature, found {len(lines)}", file=path)
-    feat = lines[0]
-    coords = feat["geometry"].get("coordinates") or []
-    props = feat.get("properties") or {}
-    names = props.get("names") or [f"WP{i + 1}" for i in range(len(coords))]
-    fls = props.get("flight_levels") or [False] * len(coords)
+    except RecursionError:
+        raise RouteFormatError("invalid JSON: nested too deeply", file=path) from None
+    if not isinstance(obj, dict):
+        raise RouteFormatError("GeoJSON must be an object (a FeatureCollection, Feature or LineString)", file=path)
+    kind = obj.get("type")
+    if kind == "FeatureCollection" or "features" in obj:
+        feats = obj.get("features")
+        if not isinstance(feats, list):
+            raise RouteFormatError(f"'features' must be a list, not {type(feats).__name__}", file=path)
+    elif kind == "LineString":
+        feats = [{"type": "Feature", "geometry": obj, "properties": {}}]
+    else:
+        feats = [obj]
+    found = []
+    for i, f in enumerate(feats):
+        if not isinstance(f, dict):
+            raise RouteFormatError(f"feature {i}: must be an object, not {type(f).__name__}", file=path)
+        geom = f.get("geometry")
+        if geom is None:
+            continue
+        if not isinstance(geom, dict):
+            raise RouteFormatError(f"feature {i}: 'geometry' must be an object, not {type(geom).__name__}",
+                                   file=path)
+        if geom.get("type") == "LineString":
+            found.append(i)
+    if len(found) != 1:
+        raise RouteFormatError(f"expected exactly one LineString feature, found {len(found)}", file=path)
+    fi = found[0]
+    feat = feats[fi]
+    where = f"feature {fi}: "
+    coords = feat["geometry"].get("coordinates")
+    if not isinstance(coords, list):
+        raise RouteFormatError(f"{where}'coordinates' must be a list of [lon, lat, altitude_m], not "
+                               f"{type(coords).__name__}", file=path)
+    props = feat.get("properties")
+    if props is None:
+        props = {}
+    if not isinstance(props, dict):
+        raise RouteFormatError(f"{where}'properties' must be an object, not {type(props).__name__}", file=path)
+    n = len(coords)
+    names = _per_point(props, "names", n, where, path, lambda v: isinstance(v, str | int) and not isinstance(v, bool),
+                       "a name (text)")
+    fls = _per_point(props, "flight_levels", n, where, path, lambda v: isinstance(v, bool), "true or false")
+    notes = [f"{path.name}: {where}property {k!r} ignored (known: names, flight_levels, departure)"
+             for k in props if k not in ("names", "flight_levels", "departure")]
     wps = []
     for i, c in enumerate(coords):
-        if len(c) < 3:
-            raise RouteFormatError(f"coordinate {i + 1} has no altitude (need [lon, lat, altitude_m])", file=path)
+        at = f"{where}coordinate {i + 1}: "
+        if not isinstance(c, list) or len(c) < 3:
+            raise RouteFormatError(f"{at}need [lon, lat, altitude_m], got {json.dumps(c)[:60]}", file=path)
+        if not all(_number(v) for v in c[:3]):
+            raise RouteFormatError(f"{at}longitude, latitude and altitude must be finite numbers, got "
+                                   f"{json.dumps(c[:3])[:60]}", file=path)
         lon, lat, z = (float(v) for v in c[:3])
-        _check_position(lat, lon, path, None)
-        wps.append(Waypoint(str(names[i]), lat, lon, z / FT, bool(fls[i])))
-    dep = departure or props.get("departure")
-    return Route(wps, departure=None if dep is None else _utc(dep), name=path.stem, source=str(path))
+        _check_position(lat, lon, path, None, at)
+        alt_ft = z / FT
+        _check_altitude(alt_ft, path, None, at)
+        name = str(names[i]) if names is not None else f"WP{i + 1}"
+        wps.append(Waypoint(name, lat, lon, alt_ft, bool(fls[i]) if fls is not None else False))
+    dep = props.get("departure")
+    if dep is not None:
+        if not isinstance(dep, str):
+            raise RouteFormatError(f"{where}property 'departure' must be ISO 8601 text, not {type(dep).__name__}",
+                                   file=path)
+        dep = _checked_time(dep, path, None, f"{where}property departure")
+        # An explicit departure argument wins over the file's own (as for CSV waypoint times), with a note.
+        if departure is None:
+            departure = dep
+        elif departure != dep:
+            notes.append(f"departure {_iso(departure)} given: the file's departure {_iso(dep)} not used")
+    return _route(wps, departure, path, notes)
+
+
+def _per_point(props, key, n, where, path, ok, what):
+    """A property with one value per coordinate (None when absent)."""
+    v = props.get(key)
+    if v is None:
+        return None
+    if not isinstance(v, list):
+        raise RouteFormatError(f"{where}property {key!r} must be a list, not {type(v).__name__}", file=path)
+    if len(v) != n:
+        raise RouteFormatError(f"{where}property {key!r} has {len(v)} values for {n} coordinates", file=path)
+    for i, x in enumerate(v):
+        if not ok(x):
+            raise RouteFormatError(f"{where}property {key!r} value {i + 1} must be {what}, got {json.dumps(x)[:40]}",
+                                   file=path)
+    return v
 
 
 def trajectory(route: Route, aircraft, step_s: float = 60.0, wind_along_track=None,
