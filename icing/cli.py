@@ -8,24 +8,37 @@ from __future__ import annotations
 
 import argparse
 import sys
+import textwrap
 from pathlib import Path
 
 from icing import CAUTION, __version__
 from icing.errors import IcingError
 
 EXAMPLES = {
-    "screen": "examples:\n  icing screen route.csv --soundings sample_soundings/\n"
-              "  icing screen route.csv --soundings a.csv b.nc --aircraft regional-jet --json\n"
-              "  icing screen route.csv --soundings dir/ --aircraft my_plane.toml --set tas_cruise_kt=210",
-    "demo": "examples:\n  icing demo\n  icing demo --json",
-    "layers": "examples:\n  icing layers sample_soundings/S1_00101_2026011500.csv",
-    "inspect": "examples:\n  icing inspect sample_soundings/S5_00105_2026011500.csv",
+    "screen": "examples:\n"
+              "  icing screen route.csv --soundings sample_soundings/\n"
+              "  icing screen route.csv --soundings a.csv b.nc --aircraft regional-jet --format json\n"
+              "  icing screen route.csv --soundings dir/ --aircraft my_plane.toml --set tas_cruise_kt=210\n"
+              "  icing screen route.csv --soundings temp.txt --stations stations.csv --reference-time 2026-01-15 \\\n"
+              "      --departure 2026-01-15T05:00Z --out report/\n"
+              "  icing screen route.csv --model sample_soundings/model/demo_model.nc --format csv > segments.csv",
+    "demo": "examples:\n  icing demo\n  icing demo --format json\n  icing demo --out report/   "
+            "(then open report/report.html)\n  icing demo --model --aircraft regional-jet",
+    "layers": "examples:\n  icing layers sample_soundings/S1_00101_2026011500.csv\n"
+              "  icing layers sample_soundings/ --cold-limit -30 --airmass marine --format csv > layers.csv",
+    "inspect": "examples:\n  icing inspect sample_soundings/S5_00105_2026011500.csv\n"
+               "  icing inspect temp.txt --stations stations.csv --reference-time 2026-01-15",
     "aircraft": "examples:\n  icing aircraft",
-    "grid": "examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out grid.nc",
+    "grid": "examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out potential.nc\n"
+            "  icing grid fields_*.grib2 --aircraft regional-jet --out potential.nc --workers 2\n"
+            "  icing grid big.nc --aircraft turboprop --out potential.nc --scheduler tcp://10.0.0.5:8786",
     "plot": "examples:\n  icing plot sample_soundings/S1_00101_2026011500.csv --out s1.png\n"
             "  icing plot sample_soundings/S2_00102_2026011500.csv --out s2.svg --cold-limit -30\n"
             "  icing plot sample_soundings/S1_00101_2026011500.csv > s1.png",
 }
+# The grid command's defaults, as in icing.grid.diagnosis (kept here so that help needs no numpy or xarray).
+GRID_DEFAULT_CHUNK_POINTS = 400_000
+DEFAULT_COLD_LIMIT_C = -40.0
 
 
 class _Parser(argparse.ArgumentParser):
@@ -89,68 +102,138 @@ def _overrides(pairs):
 
 def _add_reader_options(p):
     p.add_argument("--stations", metavar="CSV", help="station table (station,name,latitude,longitude,"
-                   "elevation_m) for reports without positions, such as TEMP")
+                   "elevation_m) giving positions to reports that carry none, such as TEMP; "
+                   "e.g. --stations stations.csv")
     p.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
-                   "and hour (for example 2026-01-15)")
+                   "and hour; e.g. --reference-time 2026-01-15")
+
+
+def _add_physics_options(p):
+    p.add_argument("--cold-limit", type=float, default=DEFAULT_COLD_LIMIT_C, metavar="DEGC",
+                   help="coldest temperature at which supercooled liquid is diagnosed, degC (default -40, near "
+                   "homogeneous freezing); e.g. --cold-limit -30")
+    p.add_argument("--airmass", choices=["continental", "marine"], default="continental",
+                   help="droplet number concentration assumed for the droplet size (MVD): continental (more, "
+                   "smaller drops) or marine (fewer, larger); default continental; e.g. --airmass marine")
 
 
 def _add_screen_options(sp):
-    sp.add_argument("--aircraft", default="turboprop", help="preset name or TOML file (default turboprop)")
-    sp.add_argument("--set", action="append", metavar="KEY=VALUE", help="override an aircraft field")
-    sp.add_argument("--departure", help="departure time, ISO 8601 UTC (if the route has none)")
-    sp.add_argument("--step", type=float, default=60.0, help="trajectory time step, s (default 60)")
-    sp.add_argument("--max-distance", type=float, default=300.0, help="farthest station used, km (default 300)")
-    sp.add_argument("--max-age", type=float, default=12.0, help="oldest report used, hours (default 12)")
-    sp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
-    sp.add_argument("--airmass", choices=["continental", "marine"], default="continental",
-                    help="droplet number concentration assumed for MVD (default continental)")
+    sp.add_argument("--aircraft", default="turboprop", metavar="NAME_OR_TOML",
+                    help="aircraft preset (see 'icing aircraft') or a TOML file of your own; default turboprop; "
+                    "e.g. --aircraft regional-jet")
+    sp.add_argument("--set", action="append", metavar="KEY=VALUE",
+                    help="override one aircraft field (repeatable); e.g. --set tas_cruise_kt=210")
+    sp.add_argument("--departure", metavar="ISO",
+                    help="departure time, ISO 8601 UTC, for a route without times; e.g. --departure "
+                    "2026-01-15T05:00Z")
+    sp.add_argument("--step", type=float, default=60.0, metavar="SECONDS",
+                    help="time between trajectory samples, s (default 60); e.g. --step 30")
+    sp.add_argument("--max-distance", type=float, default=300.0, metavar="KM",
+                    help="farthest sounding station used, km (default 300); e.g. --max-distance 200")
+    sp.add_argument("--max-age", type=float, default=12.0, metavar="HOURS",
+                    help="oldest report used, hours from the flight time (default 12); e.g. --max-age 6")
+    _add_physics_options(sp)
     _add_reader_options(sp)
     sp.add_argument("--json", action="store_true", help="the full result as JSON (same as --format json)")
-    sp.add_argument("--format", choices=["table", "json", "csv", "geojson"], default="table")
-    sp.add_argument("--out", metavar="DIR", help="write the report files (CSV, JSON, GeoJSON, HTML) to DIR")
+    sp.add_argument("--format", choices=["table", "json", "csv", "geojson"], default="table",
+                    help="what goes to stdout: table (for people, default), json (caution, summary, segments), "
+                    "csv (one row a segment) or geojson (one line a segment); e.g. --format csv")
+    sp.add_argument("--out", metavar="DIR", help="also write the report files (segments.csv, assessment.json, "
+                    "segments.geojson, report.html with its figures) to DIR; e.g. --out report/")
+
+
+def _add_grid_parser(sub):
+    """``icing grid``: the arguments of icing.grid.diagnosis.add_grid_parser, defined here so help stays light."""
+    gp = _sub(sub, "grid", "icing diagnostics and accretion potential over model grids",
+              "Diagnose supercooled liquid and accretion potential over model grids on pressure levels and write "
+              "them as a CF netCDF or zarr file.")
+    gp.add_argument("fields", nargs="+", metavar="FIELDS", help="model files on pressure levels (netCDF with CF "
+                    "names, or GRIB2 with cfgrib); several files are joined along time; e.g. fields_*.grib2")
+    gp.add_argument("--aircraft", default="turboprop", metavar="NAME_OR_TOML",
+                    help="preset name or TOML file (default turboprop); e.g. --aircraft regional-jet")
+    gp.add_argument("--out", required=True, metavar="FILE", help="output .nc (netCDF4) or .zarr; "
+                    "e.g. --out potential.nc")
+    gp.add_argument("--airspeed", type=float, metavar="KT", help="true airspeed, kt (default: the aircraft's "
+                    "cruise speed); e.g. --airspeed 180")
+    _add_physics_options(gp)
+    gp.add_argument("--summary-only", action="store_true", help="write only the 2-D column summaries")
+    gp.add_argument("--chunk-points", type=int, default=GRID_DEFAULT_CHUNK_POINTS, metavar="N",
+                    help=f"level-points per chunk (default {GRID_DEFAULT_CHUNK_POINTS}); e.g. --chunk-points 200000")
+    where = gp.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N", help="run on a dask LocalCluster of N processes; "
+                       "e.g. --workers 2")
+    where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster; "
+                       "e.g. --scheduler tcp://10.0.0.5:8786")
+    gp.add_argument("--engine", choices=["auto", "numpy", "numba"], default=None,
+                    help="numpy arrays, or numba's fused kernel (same results; default auto: numba if installed); "
+                    "e.g. --engine numpy")
+    gp.add_argument("--quiet", action="store_true", help="no progress bar")
+    return gp
+
+
+def _sub(sub, name, help_text, description=None):
+    text = (description or help_text[0].upper() + help_text[1:] + ".") + "\n\n" + CAUTION
+    return sub.add_parser(name, help=help_text, description="\n".join(
+                              "\n".join(textwrap.wrap(par, 100)) for par in text.split("\n")),
+                          epilog=EXAMPLES[name], formatter_class=argparse.RawDescriptionHelpFormatter)
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of every command (standard library only: ``icing --help`` starts fast)."""
     parser = _Parser(
-        prog="icing", description="Screen a planned flight route for airframe icing from soundings. " + CAUTION,
+        prog="icing", description="Screen a planned flight route for airframe icing from soundings.\n\n"
+        + "\n".join(textwrap.wrap(CAUTION, 100)),
+        epilog="run 'icing COMMAND --help' for a command's options and examples; first try:\n  icing demo\n"
+               "  icing demo --out report/",
         formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"icing {__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    sp = sub.add_parser("screen", help="screen a route against soundings", epilog=EXAMPLES["screen"],
-                        formatter_class=argparse.RawDescriptionHelpFormatter)
-    sp.add_argument("route", help="route CSV (name,latitude,longitude,altitude[,speed_kt][,time]) or GeoJSON")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sp = _sub(sub, "screen", "screen a route against soundings or a model grid",
+              "Screen a planned route: per segment, the minutes in supercooled liquid, the ice accreted on the "
+              "aircraft's reference body, intensity, ice type, large drops and whether the data were complete.")
+    sp.add_argument("route", help="route CSV (name,latitude,longitude,altitude[,speed_kt][,time]; altitude in ft "
+                    "or as FL140) or GeoJSON LineString; e.g. route.csv")
     what = sp.add_mutually_exclusive_group(required=True)
-    what.add_argument("--soundings", nargs="+", metavar="FILE_OR_DIR", help="sounding files or directories")
-    what.add_argument("--model", metavar="FIELDS", help="a model grid on pressure levels (netCDF) instead")
+    what.add_argument("--soundings", nargs="+", metavar="FILE_OR_DIR", help="sounding files or directories "
+                      "(CSV, netCDF, TEMP, IGRA, BUFR); e.g. --soundings sample_soundings/")
+    what.add_argument("--model", metavar="FIELDS", help="a model grid on pressure levels (netCDF) instead of "
+                      "soundings; e.g. --model sample_soundings/model/demo_model.nc")
     _add_screen_options(sp)
-    dp = sub.add_parser("demo", help="screen the bundled demo route against the demo soundings",
-                        epilog=EXAMPLES["demo"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    dp = _sub(sub, "demo", "screen the bundled demo route against the demo soundings",
+              "Screen the bundled demo route (an invented scenario) against the bundled demo soundings; takes "
+              "the options of 'icing screen'.")
     _add_screen_options(dp)
     dp.add_argument("--model", action="store_const", const="demo", help="screen against the demo model grid "
-                    "instead of the demo soundings")
-    lp = sub.add_parser("layers", help="supercooled-liquid layers of soundings", epilog=EXAMPLES["layers"],
-                        formatter_class=argparse.RawDescriptionHelpFormatter)
-    lp.add_argument("soundings", nargs="+")
+                    "instead of the demo soundings; e.g. icing demo --model")
+    lp = _sub(sub, "layers", "supercooled-liquid layers of soundings",
+              "List the supercooled-liquid layers of each sounding: base and top (ft, hPa, degC), thickness, "
+              "largest LWC, MVD, kind of cloud and large drops.")
+    lp.add_argument("soundings", nargs="+", help="sounding files or directories; "
+                    "e.g. sample_soundings/S1_00101_2026011500.csv")
     _add_reader_options(lp)
-    lp.add_argument("--cold-limit", type=float, default=-40.0)
-    lp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
-    lp.add_argument("--format", choices=["table", "csv", "json"], default="table")
-    ip = sub.add_parser("inspect", help="print soundings as read and their quality records",
-                        epilog=EXAMPLES["inspect"], formatter_class=argparse.RawDescriptionHelpFormatter)
-    ip.add_argument("soundings", nargs="+")
+    _add_physics_options(lp)
+    lp.add_argument("--format", choices=["table", "csv", "json"], default="table",
+                    help="table (for people, default), csv or json (for programs: SI and trade units in the "
+                    "column names); e.g. --format csv")
+    ip = _sub(sub, "inspect", "print soundings as read and their quality records",
+              "Print each sounding as read, with units (wind in knots), and its quality record: every level "
+              "the checks changed or dropped, and why.")
+    ip.add_argument("soundings", nargs="+", help="sounding files or directories; "
+                    "e.g. sample_soundings/S5_00105_2026011500.csv")
     _add_reader_options(ip)
-    sub.add_parser("aircraft", help="list the aircraft presets", epilog=EXAMPLES["aircraft"],
-                   formatter_class=argparse.RawDescriptionHelpFormatter)
-    pp = sub.add_parser("plot", help="draw a sounding diagram (skew-T with supercooled layers, LWC and MVD)",
-                        epilog=EXAMPLES["plot"], formatter_class=argparse.RawDescriptionHelpFormatter)
-    pp.add_argument("sounding", help="a sounding file (a file of several profiles gives one image each)")
-    pp.add_argument("--out", metavar="FILE", help="PNG or SVG by suffix; without it a PNG goes to stdout")
-    pp.add_argument("--cold-limit", type=float, default=-40.0, help="coldest supercooled liquid, degC (-40)")
-    pp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
-    pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data)")
-    from icing.grid import add_grid_parser
-
-    add_grid_parser(sub)
+    _sub(sub, "aircraft", "list the aircraft presets",
+         "List the aircraft presets: speeds, climb and descent rates and the reference body used for accretion.")
+    pp = _sub(sub, "plot", "draw a sounding diagram (skew-T with supercooled layers, LWC and MVD)",
+              "Draw a sounding diagram: skew-T with supercooled layers, wind barbs (kt), height (ft) and flight "
+              "levels beside pressure, and the LWC and MVD profile.")
+    pp.add_argument("sounding", help="a sounding file (a file of several profiles gives one image each); "
+                    "e.g. sample_soundings/S1_00101_2026011500.csv")
+    pp.add_argument("--out", metavar="FILE", help="PNG or SVG by suffix; without it a PNG goes to stdout; "
+                    "e.g. --out s1.png")
+    _add_physics_options(pp)
+    pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data); "
+                    "e.g. --top 300")
+    _add_grid_parser(sub)
     return parser
 
 
@@ -171,7 +254,10 @@ def _screen(args, route, soundings):
                                        cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
                                        reference_time=args.reference_time)
         progress.step("screening the route")
-        result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
+        try:
+            result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
+        except IcingError as exc:
+            raise _name_option(exc, args) from None
         fmt = "json" if args.json else args.format
         if args.out:
             from icing.report.files import write_reports
@@ -185,7 +271,9 @@ def _screen(args, route, soundings):
     finally:
         progress.close()
     if fmt == "json":
-        print(result.to_json())
+        from icing.report.files import assessment_json
+
+        print(assessment_json(result))
     elif fmt == "csv":
         from icing.report.files import segments_csv
 
@@ -203,6 +291,46 @@ def _screen(args, route, soundings):
     return 0
 
 
+def _name_option(exc, args):
+    """The error with the command-line option to use named (the library speaks of parameters)."""
+    text = str(exc)
+    if "departure" in text and "--departure" not in text:
+        hint = ("give the time at the first waypoint of the route or --departure, e.g. --departure "
+                "2026-01-15T05:00Z" if not getattr(args, "departure", None) else
+                "--departure wants ISO 8601 UTC, e.g. --departure 2026-01-15T05:00Z")
+        return IcingError(f"{text.rstrip('.')}; {hint}")
+    if "reference_time" in text:
+        return IcingError(text.replace("reference_time", "--reference-time"))
+    return exc
+
+
+# Columns of 'icing layers' for people: name, heading with unit, decimals.
+LAYER_COLUMNS = [("base_height_ft", "base ft", 0), ("top_height_ft", "top ft", 0),
+                 ("base_pressure_hpa", "base hPa", 0), ("top_pressure_hpa", "top hPa", 0),
+                 ("base_temperature_c", "base degC", 1), ("top_temperature_c", "top degC", 1),
+                 ("thickness_m", "thick m", 0), ("max_lwc_g_m3", "max LWC g/m3", 2), ("mvd_um", "MVD um", 0),
+                 ("kind", "kind", None), ("large_drop", "large drops", None), ("quality", "quality", None)]
+
+
+def _text_table(frame, spec):
+    """A fixed-width table from (column, heading, decimals) triples: numbers right-aligned, a dash for unknown."""
+    from icing.report.tables import format_number, is_missing
+
+    cols = [(c, h, d) for c, h, d in spec if c in frame]
+    cells = [[("-" if is_missing(v) else format_number(v, d, grouping=True)) if d is not None else
+              ("-" if is_missing(v) else str(v)) for (c, _, d), v in zip(cols, row, strict=True)]
+             for row in frame[[c for c, _, _ in cols]].itertuples(index=False, name=None)]
+    widths = [max([len(h)] + [len(r[i]) for r in cells]) for i, (_, h, _) in enumerate(cols)]
+
+    def line(values, numeric):
+        return "  ".join(v.rjust(w) if n else v.ljust(w) for v, w, n in zip(values, widths, numeric, strict=True))
+
+    num = [d is not None for _, _, d in cols]
+    out = [line([h for _, h, _ in cols], num), line(["-" * w for w in widths], num)]
+    out += [line(r, num) for r in cells]
+    return "\n".join("  " + x.rstrip() for x in out)
+
+
 def _layers(args):
     from icing.io import read_profiles
     from icing.physics.layers import supercooled_layers
@@ -214,15 +342,18 @@ def _layers(args):
             t.insert(0, "time", prof.attrs.get("time", ""))
             t.insert(0, "station", prof.attrs.get("station", ""))
             frames.append((prof, t))
-    if args.format == "csv":
+    if args.format in ("csv", "json"):
         import pandas as pd
 
-        sys.stdout.write(pd.concat([t for _, t in frames]).to_csv(index=False))
-        return 0
-    if args.format == "json":
-        import pandas as pd
+        from icing.report.tables import frame_records, frame_to_csv
 
-        print(pd.concat([t for _, t in frames]).to_json(orient="records", indent=1))
+        table = pd.concat([t for _, t in frames], ignore_index=True) if frames else pd.DataFrame()
+        if args.format == "csv":
+            sys.stdout.write(frame_to_csv(table))
+        else:
+            import json
+
+            print(json.dumps(frame_records(table), indent=1, allow_nan=False))
         return 0
     print(CAUTION + "\n")
     for prof, t in frames:
@@ -230,15 +361,21 @@ def _layers(args):
         if t.empty:
             print("  no supercooled-liquid layer found\n")
             continue
-        cols = [c for c in ("base_height_ft", "top_height_ft", "base_pressure_hpa", "top_pressure_hpa",
-                            "base_temperature_c", "top_temperature_c", "max_lwc_g_m3", "mvd_um", "kind",
-                            "large_drop", "quality") if c in t]
-        print(t[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}"))
+        print(_text_table(t, LAYER_COLUMNS))
         print()
     return 0
 
 
+# Columns of 'icing inspect': variable, heading with unit, factor from the profile's unit, decimals.
+INSPECT_COLUMNS = [("pressure", "pressure hPa", 1.0, 1), ("height", "height m", 1.0, 0),
+                   ("height", "height ft", 1.0 / 0.3048, 0), ("temperature", "temp degC", 1.0, 1),
+                   ("dewpoint", "dewpt degC", 1.0, 1), ("relative_humidity", "RH %", 1.0, 0),
+                   ("wind_direction", "wind deg", 1.0, 0), ("wind_speed", "wind kt", 3600.0 / 1852.0, 0)]
+
+
 def _inspect(args):
+    import pandas as pd
+
     from icing.io import read_profiles
     from icing.profile import format_quality
 
@@ -247,9 +384,18 @@ def _inspect(args):
             a = prof.attrs
             print(f"{a.get('station', '?')} {a.get('name', '')} {a.get('time', '')} lat {a.get('latitude')} "
                   f"lon {a.get('longitude')} elevation {a.get('elevation')} m  [{a.get('format')}: {a.get('source')}]")
-            cols = [c for c in ("pressure", "height", "temperature", "dewpoint", "relative_humidity", "wind_speed",
-                                "wind_direction") if c in prof]
-            print(prof[cols].to_dataframe().to_string(float_format=lambda v: f"{v:.1f}"))
+            # The profile's units attributes are the contract (hPa, m, degC, %, m/s, deg): checked, then shown
+            # in the units of the trade (feet beside metres, wind in knots).
+            want = {"pressure": "hPa", "height": "m", "wind_speed": "m/s"}
+            for name, unit in want.items():
+                got = prof[name].attrs.get("units") if name in prof else None
+                if got is not None and str(got).replace(" ", "") not in (unit, unit.replace("/", " ").replace(
+                        " ", ""), "meter/second" if unit == "m/s" else unit, "m s-1" if unit == "m/s" else unit):
+                    print(f"  note: {name} is in {got}, shown as is")
+            frame = pd.DataFrame({f"{v}|{h}": prof[v].values.astype(float) * f
+                                  for v, h, f, _ in INSPECT_COLUMNS if v in prof})
+            spec = [(f"{v}|{h}", h, d) for v, h, _, d in INSPECT_COLUMNS if v in prof]
+            print(_text_table(frame, spec))
             q = format_quality(prof)
             print("quality record:" + ("" if q else " nothing changed or dropped"))
             for line in q:

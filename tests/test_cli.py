@@ -16,6 +16,7 @@ import io
 import json
 import os
 import pty
+import re
 import subprocess
 import sys
 from concurrent.futures import ThreadPoolExecutor
@@ -27,7 +28,8 @@ import pytest
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_soundings"
 S1 = SAMPLES / "S1_00101_2026011500.csv"
 ROUTE = SAMPLES / "demo_route.csv"
-COMMANDS = ("screen", "demo", "layers", "plot", "inspect", "aircraft")
+COMMANDS = ("screen", "demo", "layers", "plot", "inspect", "aircraft", "grid")
+HEAVY = ("numpy", "pandas", "xarray", "matplotlib", "metpy", "scipy", "pint", "numba", "pyproj")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948
 
 # One interpreter, many command lines: main(argv) with fresh binary-backed stdout/stderr per call.
@@ -55,6 +57,8 @@ print(json.dumps(out))
 
 def _runs(tmp: Path) -> tuple[dict, dict]:
     (tmp / "garbage.csv").write_text("this is not\na sounding at all\n")
+    (tmp / "untimed_route.csv").write_text("name,latitude,longitude,altitude\nALDRN,52.05,-34.10,100\n"
+                                           "BRNCK,52.6,-31.0,FL120\n")
     (tmp / "bad_route.csv").write_text("name,latitude,longitude,altitude\nAAAAA,95.0,10.0,FL100\nBBBBB,50,11,FL100\n")
     csvs = [str(p) for p in sorted(SAMPLES.glob("S?_*.csv"))]
     one_station = [str(SAMPLES / f"S2_00102_20260115{h}.csv") for h in ("00", "12")]  # one diagram to draw
@@ -87,6 +91,8 @@ def _runs(tmp: Path) -> tuple[dict, dict]:
         "missing_route": ["screen", str(tmp / "no_such_route.csv"), "--soundings", *csvs],
         "bad_route": ["screen", str(tmp / "bad_route.csv"), "--soundings", *csvs],
         "plot_bad_suffix": ["plot", str(S1), "--out", str(tmp / "s1.jpeg")],
+        "no_departure": ["screen", str(tmp / "untimed_route.csv"), "--soundings", *csvs],
+        "bad_departure": ["screen", str(tmp / "untimed_route.csv"), "--soundings", *csvs, "--departure", "soon"],
     }
     return real, in_one
 
@@ -191,12 +197,16 @@ def test_screen_csv(results):
     assert first.startswith("# ADVISORY ONLY")
     rows = list(csv.DictReader(io.StringIO(rest)))
     assert rows and rows[0]["start"] == "ALDRN"
+    assert not re.search(r"\d[eE][+-]?\d", rest)  # no scientific notation (issue 17)
 
 
 def test_layers_each_format(results):
     assert "ADVISORY ONLY" in ok(results["layers_table"])
-    rows = list(csv.DictReader(io.StringIO(ok(results["layers_csv"]))))
+    text = ok(results["layers_csv"])
+    rows = list(csv.DictReader(io.StringIO(text)))
     assert rows and "base_height_ft" in rows[0]
+    assert not re.search(r"\d[eE][+-]?\d", text)  # no scientific notation (issue 17)
+    assert rows[0]["base_height_ft"].isdigit() and re.fullmatch(r"-?\d+\.\d", rows[0]["base_temperature_c"])
     recs = json.loads(ok(results["layers_json"]))
     assert len(recs) == len(rows)
 
@@ -236,6 +246,53 @@ def test_bad_usage_one_line_exit_2(results, name, words):
     ("garbage_sounding", ["garbage.csv"]),
     ("bad_route", ["bad_route.csv"]),
     ("plot_bad_suffix", [".png or .svg"]),
+    ("no_departure", ["--departure", "untimed_route.csv"]),
+    ("bad_departure", ["--departure", "soon"]),
 ])
 def test_bad_input_one_line_exit_2(results, name, words):
     one_error_line(results[name], *words)
+
+
+def test_inspect_shows_units_and_knots(results):
+    """Every column of 'icing inspect' names its unit; wind in knots: 1 kt = 1852 m / 3600 s exactly
+    (international nautical mile), so the first level's wind in the CSV, in m/s, reads as knots rounded."""
+    text = ok(results["inspect"])
+    head = next(line for line in text.splitlines() if "pressure" in line)
+    for unit in ("pressure hPa", "height m", "height ft", "temp degC", "dewpt degC", "RH %", "wind deg", "wind kt"):
+        assert unit in head, unit
+    rows = [r for r in csv.reader(line for line in S1.read_text().splitlines() if not line.startswith("#"))]
+    header, first = rows[0], rows[1]
+    ms = float(first[header.index("wind_speed")]) if "wind_speed" in header else None
+    if ms is not None:
+        cells = text.splitlines()[text.splitlines().index(head) + 2].split()
+        assert float(cells[-1]) == pytest.approx(ms * 3600 / 1852, abs=0.5)
+
+
+def test_help_names_every_option_with_text():
+    """Every command and every option has help text (argparse's own -h aside), and every option's text or its
+    command's examples show it in use."""
+    from icing.cli import EXAMPLES, build_parser
+
+    parser = build_parser()
+    sub = next(a for a in parser._actions if a.__class__.__name__ == "_SubParsersAction")
+    assert set(sub.choices) == set(COMMANDS)
+    for name, p in sub.choices.items():
+        for action in p._actions:
+            if action.dest == "help":
+                continue
+            assert action.help, f"icing {name} {action.option_strings or action.dest} has no help text"
+            shown = action.option_strings[-1] if action.option_strings else ""
+            assert ("e.g." in action.help or action.nargs == 0 or (shown and shown in EXAMPLES[name])
+                    or action.option_strings == []), f"icing {name} {shown}: no example"
+
+
+def test_help_imports_no_heavy_module():
+    """'icing --help' and every 'icing COMMAND --help' parse with the standard library only (the start-up target
+    of issue 13 is met by not importing the scientific stack; no timing in tests)."""
+    code = ("import sys\nfrom icing.cli import main\n"
+            f"for argv in (['--help'], *[[c, '--help'] for c in {COMMANDS!r}]):\n"
+            "    try:\n        main(argv)\n    except SystemExit:\n        pass\n"
+            f"print('HEAVY:' + ','.join(sorted(m for m in {HEAVY!r} if m in sys.modules)))")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.strip().splitlines()[-1] == "HEAVY:"

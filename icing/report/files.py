@@ -3,30 +3,37 @@
 from __future__ import annotations
 
 import json
-import math
 from pathlib import Path
 
-import numpy as np
-
 from icing import CAUTION
+from icing.report.tables import frame_records, frame_to_csv, json_value
 from icing.units import FT
 
-__all__ = ["segments_csv", "segments_geojson", "write_reports"]
+__all__ = ["segments_csv", "segments_geojson", "assessment_dict", "assessment_json", "write_reports"]
 
 
 def segments_csv(assessment) -> str:
-    """The segment table as CSV, the caution in a leading comment line."""
-    return f"# {CAUTION}\n" + assessment.segments.to_csv(index=False, float_format="%.4g")
+    """The segment table as CSV, the caution in a leading comment line.
+
+    Fixed decimals by the unit in each column name (:func:`icing.report.tables.decimals`), never scientific
+    notation; an unknown value is an empty cell; times are ISO 8601 UTC (``Z``)."""
+    return frame_to_csv(assessment.segments, comment=CAUTION)
 
 
-def _clean(v):
-    if isinstance(v, float | np.floating):
-        return None if math.isnan(v) else float(v)
-    if isinstance(v, np.integer):
-        return int(v)
-    if isinstance(v, np.bool_):
-        return bool(v)
-    return v
+def _clean(v, column=""):
+    return json_value(v, column)
+
+
+def assessment_dict(assessment) -> dict:
+    """The caution, the summary and the segments as JSON-ready values (unknown is ``None``, times ISO UTC)."""
+    summary = {k: json_value(v, k) for k, v in assessment.summary.items()}
+    return {"caution": assessment.caution or CAUTION, "summary": summary,
+            "segments": frame_records(assessment.segments)}
+
+
+def assessment_json(assessment, indent=2) -> str:
+    """The result as JSON (RFC 8259: unknown numbers are null, never NaN; fixed decimals per unit)."""
+    return json.dumps(assessment_dict(assessment), indent=indent, allow_nan=False)
 
 
 def _lon180(lon):
@@ -58,7 +65,7 @@ def segments_geojson(assessment) -> dict:
     """
     smp = assessment.samples
     feats = []
-    for row in assessment.segments.to_dict(orient="records"):
+    for row in frame_records(assessment.segments):
         leg = smp[smp["leg"] == row["segment"] - 1]
         coords = [[round(float(lo), 6), round(float(la), 6), round(float(z) * FT, 1)]
                   for lo, la, z in zip(leg["longitude"], leg["latitude"], leg["altitude_ft"], strict=True)]
@@ -73,10 +80,10 @@ def segments_geojson(assessment) -> dict:
         parts = _split_antimeridian(coords)
         geom = ({"type": "LineString", "coordinates": parts[0]} if len(parts) == 1
                 else {"type": "MultiLineString", "coordinates": parts})
-        props = {k: _clean(v) for k, v in row.items()}
+        props = dict(row)
         feats.append({"type": "Feature", "geometry": geom, "properties": props})
     return {"type": "FeatureCollection", "features": feats,
-            "properties": {"caution": CAUTION, "summary": {k: _clean(v) for k, v in assessment.summary.items()}}}
+            "properties": {"caution": CAUTION, "summary": {k: _clean(v, k) for k, v in assessment.summary.items()}}}
 
 
 def write_reports(assessment, out_dir, source=None, progress=None) -> list[Path]:
@@ -92,7 +99,7 @@ def write_reports(assessment, out_dir, source=None, progress=None) -> list[Path]
     p.write_text(segments_csv(assessment))
     written.append(p)
     p = out / "assessment.json"
-    p.write_text(assessment.to_json())
+    p.write_text(assessment_json(assessment))
     written.append(p)
     p = out / "segments.geojson"
     p.write_text(json.dumps(segments_geojson(assessment), indent=1))

@@ -2,27 +2,38 @@
 
 from __future__ import annotations
 
-import math
 import textwrap
 
 from icing import CAUTION
+from icing.report.tables import format_number, is_missing, iso_utc
 
 
-def _num(v, fmt="{:.1f}", none="-"):
-    if v is None or (isinstance(v, float) and math.isnan(v)):
-        return none
-    return fmt.format(v)
+def _num(v, places=1, none="-"):
+    """Fixed decimals with thousands separators; a dash for unknown."""
+    return format_number(v, places, grouping=True, missing=none)
 
 
 def _alt(lo, hi):
+    if is_missing(lo) or is_missing(hi):
+        return _num(hi if is_missing(lo) else lo, 0)
     if abs(hi - lo) < 50:
-        return f"{lo:,.0f}"
-    return f"{lo:,.0f}-{hi:,.0f}"
+        return _num(lo, 0)
+    return f"{_num(lo, 0)}-{_num(hi, 0)}"
+
+
+def _word(v, none="-"):
+    return none if is_missing(v) else str(v)
+
+
+def _hhmm(t):
+    """HH:MM of a time (ISO string, pandas/numpy time); a dash when unknown."""
+    return "-" if is_missing(t) else iso_utc(t)[11:16]
 
 
 def _intensity(word, data):
-    shown = word.upper() if word in ("moderate", "severe") else word
-    return shown + "*" if data == "partial" and word != "unknown" else shown
+    word = _word(word, "unknown")
+    shown = word.upper() if word in ("moderate", "severe", "unknown") else word
+    return shown + "*" if _word(data) == "partial" and word != "unknown" else shown
 
 
 def segment_table(assessment) -> str:
@@ -33,14 +44,14 @@ def segment_table(assessment) -> str:
             "type", "large drops", "data", "best alt ft", "best mm"]
     rows = []
     for r in seg.itertuples():
-        rows.append([str(r.segment), r.start, r.end, r.start_time[11:16], _num(r.distance_nm, "{:.0f}"),
-                     _alt(r.altitude_ft_min, r.altitude_ft_max), _num(r.icing_minutes, "{:.0f}"),
+        rows.append([str(r.segment), _word(r.start), _word(r.end), _hhmm(r.start_time), _num(r.distance_nm, 0),
+                     _alt(r.altitude_ft_min, r.altitude_ft_max), _num(r.icing_minutes, 0),
                      _num(r.max_rate_mm_per_h), _num(r.accretion_mm), _intensity(r.intensity, r.data),
-                     r.ice_type, r.large_drops, r.data, _num(r.best_altitude_ft, "{:,.0f}"),
-                     _num(r.best_accretion_mm)])
+                     _word(r.ice_type), _word(r.large_drops), _word(r.data, "missing"),
+                     _num(r.best_altitude_ft, 0), _num(r.best_accretion_mm)])
     widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h) for i, h in enumerate(head)]
     wrap = "\n".join(textwrap.wrap(CAUTION, 100))
-    out = [wrap, "", f"Route {s['route']}  departure {s['departure']}  aircraft {s['aircraft']} "
+    out = [wrap, "", f"Route {s['route']}  departure {iso_utc(s['departure'])}  aircraft {s['aircraft']} "
            f"(reference body {s['reference_body_diameter_m'] * 1000:.0f} mm)", ""]
     out.append("  ".join(h.ljust(w) for h, w in zip(head, widths, strict=True)))
     out.append("  ".join("-" * w for w in widths))
@@ -54,7 +65,7 @@ def segment_table(assessment) -> str:
     best = s.get("best_altitude_plan_accretion_mm")
     offs = s.get("alternative_offsets_ft") or [0.0]
     span = f"{min(offs):+,.0f} to {max(offs):+,.0f} ft"
-    if best is not None and not math.isnan(best):
+    if not is_missing(best):
         out.append(f"Flying each segment at its best altitude (of the offsets tried, {span}) would give "
                    f"{best:.1f} mm.")
     else:
@@ -65,10 +76,11 @@ def segment_table(assessment) -> str:
                    f"{s['segments_partial_data']} with partial data: icing there is UNKNOWN, not absent; "
                    "* marks an intensity found in the part with data (at least that). 'icing inspect' shows "
                    "what the quality checks removed from each sounding.")
-    if (seg["large_drops"] != "none").any():
+    drops = seg["large_drops"].astype(object)
+    if (drops.notna() & (drops != "none")).any():
         out.append("Supercooled large drops possible (freezing drizzle or rain): beyond what the droplet-size "
                    "model above covers; see the large drops column.")
-    if (seg["warm_surface_minutes"] > 0).any():
+    if "warm_surface_minutes" in seg and (seg["warm_surface_minutes"] > 0).any():
         mins = seg["warm_surface_minutes"].sum()
         out.append(f"For {mins:.0f} of the minutes in supercooled liquid the air's heating of the leading edge keeps "
                    "it above 0 degC: no ice grows there, but the water can run back and freeze behind it.")
