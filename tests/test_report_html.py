@@ -43,7 +43,7 @@ class StrictParser(HTMLParser):
         if tag == "img":
             self.images.append(a)
         if tag == "tr" and "data-segment" in a:
-            self.rows.append([a["data-segment"], a.get("class", "")])
+            self.rows.append([a["data-segment"], a.get("data-data", "")])
         if tag not in VOID:
             self.stack.append(tag)
 
@@ -133,7 +133,8 @@ def test_report_has_every_segment_and_the_gap_notice(report):
     assert [int(r[0]) for r in p.rows] == a.segments["segment"].tolist()
     for r, seg in zip(p.rows, a.segments.itertuples(), strict=True):
         assert r[1] == seg.data
-        assert seg.start in r and seg.end in r and seg.intensity in r
+        assert seg.start in r and seg.end in r
+        assert seg.intensity in [x.strip().lower().rstrip("*") for x in r]
     whole = " ".join(p.text)
     assert "DATA GAPS" in whole and "UNKNOWN" in whole
     for label in ("X1 2030-02-01 00Z", "X2 2030-02-01 00Z"):
@@ -202,4 +203,34 @@ def test_sources_table_for_a_model_grid():
     ts = a.samples["time_s"].to_numpy()
     for (_, dist, age), t in zip(rows, src.time_s, strict=True):
         assert dist == "–"  # no station distance for a grid
-        np.testing.assert_allclose(float(age), np.abs(ts - t).min() / 3600.0, rtol=0.01, atol=0.006)
+        # shown to a tenth of an hour (half a tenth of rounding)
+        np.testing.assert_allclose(float(age), np.abs(ts - t).min() / 3600.0, rtol=0.01, atol=0.051)
+
+
+def test_compact_table_with_folded_details(report):
+    """Issue 17: the segment table keeps to where/when/how bad/how sure; sources, envelopes, distances and ages
+    of the data and the best altitude fold into one <details> per segment; a print style for a landscape page."""
+    a, _, _, text = report
+    table = text[text.index('<table id="segments">'):text.index("</table>", text.index('<table id="segments">'))]
+    head = table[:table.index("</thead>")]
+    assert "sources" not in head and "reports used" not in head
+    assert table.count("<details>") == len(a.segments)
+    for word in ("reports used", "14 CFR 25 Appendix C", "farthest data used (km)", "oldest data used (h)",
+                 "best altitude (ft)"):
+        assert table.count(f"<dt>{word}</dt>") == len(a.segments), word
+    assert "@media print" in text and re.search(r"@page\{size:landscape", text)
+
+
+def test_unknown_details_read_unknown():
+    """A segment without data: its details say 'unknown' (never blank or 0), its intensity UNKNOWN, its data
+    MISSING; the new dtypes (datetime64 UTC times, ordered Categoricals) render."""
+    from test_report_tables import typed_assessment
+
+    a = typed_assessment()
+    text = report_html(a, {})
+    assert parse(text).errors == []
+    row = text[text.index('data-segment="2"'):text.index('data-segment="3"')]
+    assert "UNKNOWN" in row and "MISSING" in row and "06:31–07:02" in row
+    assert "<dt>max LWC (g/m³)</dt><dd>unknown</dd>" in row
+    assert "<dt>ice type</dt>" not in row  # shown in the row itself
+    assert ">unknown</td>" in row  # ice type cell

@@ -9,7 +9,6 @@ from __future__ import annotations
 import base64
 import html
 import io
-import math
 from pathlib import Path
 
 import numpy as np
@@ -23,27 +22,100 @@ SEGMENT_HEADINGS = {
     "distance_nm": "distance (nm)", "altitude_ft_min": "lowest (ft)", "altitude_ft_max": "highest (ft)",
     "icing_minutes": "minutes in icing", "max_rate_mm_per_h": "max rate (mm/h)", "accretion_mm": "accretion (mm)",
     "intensity": "intensity", "ice_type": "ice type", "large_drops": "large drops", "data": "data",
+    "warm_surface_minutes": "minutes with the leading edge above 0 °C",
     "max_lwc_g_m3": "max LWC (g/m³)", "mvd_um": "MVD (µm)", "min_temperature_c": "coldest (°C)",
     "freezing_level_ft": "freezing level (ft)", "supercooled_top_ft": "supercooled top (ft)",
-    "appendix_c": "App. C", "appendix_o": "App. O", "data_distance_km": "data distance (km)",
-    "data_age_h": "data age (h)", "best_altitude_ft": "best altitude (ft)", "best_accretion_mm": "best accretion (mm)",
-    "sources": "sources",
+    "appendix_c": "14 CFR 25 Appendix C", "appendix_o": "14 CFR 25 Appendix O",
+    "data_distance_km": "farthest data used (km)", "data_age_h": "oldest data used (h)",
+    "best_altitude_ft": "best altitude (ft)", "best_accretion_mm": "accretion at the best altitude (mm)",
+    "sources": "reports used",
 }
+# The compact table: where (from, to, altitudes), when (times), how bad (minutes, accretion, intensity, type,
+# large drops), how sure (data). Everything else folds into the row's details.
+COMPACT = ["segment", "start", "end", "start_time", "altitude_ft_min", "icing_minutes", "accretion_mm",
+           "intensity", "ice_type", "large_drops", "data"]
+DETAILS = ["distance_nm", "max_rate_mm_per_h", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
+           "supercooled_top_ft", "warm_surface_minutes", "appendix_c", "appendix_o", "data_distance_km",
+           "data_age_h", "best_altitude_ft", "best_accretion_mm", "sources"]
+INTENSITY_WORDS = ("none", "trace", "light", "moderate", "severe", "unknown")
+DATA_WORDS = ("ok", "partial", "missing")
+
+# Our own colours. Every status has a word as well as a colour; text on each badge keeps a contrast ratio of at
+# least 4.5:1 (WCAG 2.1, success criterion 1.4.3; tests/test_report_browser.py measures it in a browser).
+# Unknown and missing data are amber and black, the loudest colours on the page: they never fade.
 _STYLE = """
-body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,Helvetica,Arial,sans-serif;margin:1.2em auto;
-max-width:1250px;padding:0 1em;color:#1d1d1d;line-height:1.4}
-h1{font-size:1.5em;margin:.3em 0}h2{font-size:1.15em;margin-top:1.6em;border-bottom:1px solid #ccc}
-.caution{border:2px solid #7a4fa3;background:#f5f0fa;padding:.7em 1em;font-weight:600}
-.gaps{border:2px solid #5a5a5a;padding:.6em 1em;background:repeating-linear-gradient(45deg,#fff,#fff 8px,#eee 8px,
-#eee 16px);font-weight:600}
-table{border-collapse:collapse;font-size:.85em;margin:.5em 0}th,td{border:1px solid #ccc;padding:.25em .45em;
-text-align:right;vertical-align:top}th{background:#eef1f7}td.t{text-align:left}
-tr.partial td{background:#f7f7f7}tr.missing td{background:repeating-linear-gradient(45deg,#fff,#fff 6px,#e6e6e6 6px,
-#e6e6e6 12px)}
-.i-severe{background:#2f0d63;color:#fff}.i-moderate{background:#5b4bb7;color:#fff}.i-light{background:#6f8fd8}
-.i-trace{background:#a9c4eb}.i-unknown{background:#4d4d4d;color:#fff}
-img{max-width:100%;height:auto;border:1px solid #ddd;margin:.4em 0}dl{display:grid;grid-template-columns:max-content
-auto;gap:.15em 1em}dt{font-weight:600}dd{margin:0}.small{font-size:.8em;color:#444}
+:root{--ink:#1b1b1b;--muted:#4a4a4a;--rule:#c9ccd3;--head:#e9ecf3;--amber:#ffc933}
+*{box-sizing:border-box}
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,Helvetica,Arial,sans-serif;margin:0 auto;
+max-width:1240px;padding:.6em 1em 2em;color:var(--ink);line-height:1.35;font-size:15px}
+.caution{border:2px solid #6b3fa0;background:#f4eefb;padding:.45em .8em;margin:0 0 .5em;font-size:.9em}
+.caution b{color:#4b2380}
+h1{font-size:1.35em;margin:.2em 0 .1em}h2{font-size:1.1em;margin:1.2em 0 .4em;border-bottom:1px solid var(--rule)}
+.meta{margin:0 0 .6em;color:var(--muted)}
+.glance{display:flex;flex-wrap:wrap;gap:.5em;margin:.4em 0 .6em}
+.card{border:1px solid var(--rule);border-radius:6px;padding:.35em .7em;min-width:9em;background:#fafbfd}
+.card .k{display:block;font-size:.75em;color:var(--muted);text-transform:uppercase;letter-spacing:.04em}
+.card b{font-size:1.1em}
+.gaps{border:3px solid #1b1b1b;background:var(--amber);color:#1b1b1b;padding:.45em .8em;font-weight:600;
+margin:.4em 0}
+table{border-collapse:collapse;margin:.3em 0}
+th,td{border:1px solid var(--rule);padding:.3em .5em;text-align:right;vertical-align:middle;white-space:nowrap}
+th{background:var(--head);font-size:.85em}
+td.t,th.t{text-align:left}
+#segments{font-size:.95em}
+#segments tr.more td{border-top:0;padding:.1em .5em .35em;text-align:left;white-space:normal;background:#fcfcfd}
+#segments tr.seg td{border-bottom:0}
+tr.r-missing td,tr.r-partial td{background:#fff7dc}
+tr.r-missing td:first-child,tr.r-partial td:first-child{box-shadow:inset 6px 0 0 #1b1b1b}
+details summary{cursor:pointer;color:var(--muted);font-size:.85em}
+details[open] summary{color:var(--ink)}
+dl.det{display:grid;grid-template-columns:max-content 1fr;gap:.1em 1em;margin:.3em 0 .2em;font-size:.85em}
+dl.det dt{color:var(--muted)}dl.det dd{margin:0}
+.badge{display:inline-block;min-width:5.2em;text-align:center;padding:.12em .45em;border-radius:4px;font-weight:700;
+border:2px solid transparent;font-size:.9em}
+.i-none{background:#e6efe8;color:#173b27;border-color:#b9cfbf}
+.i-trace{background:#d4e4f6;color:#0c2540}
+.i-light{background:#98bde9;color:#0c2540}
+.i-moderate{background:#3a57bd;color:#fff}
+.i-severe{background:#2b0e5c;color:#fff}
+.i-unknown{background:var(--amber);color:#1b1b1b;border:2px dashed #1b1b1b}
+.d-ok{background:#fff;color:#1f5130;border-color:#8fb59b}
+.d-partial{background:#ffe7a3;color:#3a2800;border-color:#1b1b1b}
+.d-missing{background:#1b1b1b;color:var(--amber)}
+.key{font-size:.82em;color:var(--muted);margin:.2em 0 .6em;line-height:2}
+.key .badge{min-width:0;font-size:.95em}
+.wide{overflow-x:auto;max-width:100%}
+#sources td.file{white-space:normal;word-break:break-all;text-align:left}
+figure{margin:.6em 0}
+img{max-width:100%;height:auto;border:1px solid #ddd}
+dl.summary{display:grid;grid-template-columns:max-content auto;gap:.15em 1em}dl.summary dt{font-weight:600}
+dl.summary dd{margin:0}.small{font-size:.82em;color:var(--muted)}
+@media (max-width:760px){
+body{font-size:14px;padding:.4em .5em}
+#segments,#segments tbody{display:block}#segments thead{display:none}
+#segments tr.seg{display:flex;flex-wrap:wrap;gap:.15em .8em;border:1px solid var(--rule);border-bottom:0;
+padding:.35em .5em;margin-top:.5em}
+#segments tr.seg td{display:block;border:0;padding:0;text-align:left}
+#segments tr.seg td::before{content:attr(data-label) ": ";color:var(--muted);font-size:.8em}
+#segments tr.seg td.st{order:-1}#segments tr.seg td.id{order:-2;font-weight:700}
+.glance{display:grid;grid-template-columns:1fr 1fr}.card{min-width:0}
+#segments tr.more{display:block;border:1px solid var(--rule);border-top:0}#segments tr.more td{display:block;border:0}
+tr.r-missing td:first-child,tr.r-partial td:first-child{box-shadow:none}
+#segments tr.r-missing,#segments tr.r-partial{border-left:6px solid #1b1b1b;background:#fff7dc}
+#segments tr.r-missing td,#segments tr.r-partial td{background:none}
+}
+@page{size:landscape;margin:10mm}
+@media print{
+body{max-width:none;padding:0;font-size:9pt}
+.caution{border-width:1.5pt}
+.glance .card{padding:.2em .5em}
+#segments tr.more{display:none}
+#segments tr.seg td{border-bottom:1px solid var(--rule)}
+.badge,.gaps,.caution,th{-webkit-print-color-adjust:exact;print-color-adjust:exact}
+figure{break-inside:avoid}img{max-height:120mm;width:auto}
+h2{break-after:avoid}
+.noprint{display:none}
+}
 """
 
 
@@ -51,16 +123,57 @@ def _e(v) -> str:
     return html.escape(str(v), quote=True)
 
 
-def _fmt(v, col=""):
+def _missing(v) -> bool:
+    from icing.report.tables import is_missing
+
+    return is_missing(v)
+
+
+def _fmt(v, col="", unknown="–"):
+    """A value for people: fixed decimals by the column's unit, thousands grouped, ``unknown`` when missing."""
+    from icing.report.tables import format_value
+
     if isinstance(v, bool | np.bool_):
         return "yes" if v else "no"
-    if v is None or (isinstance(v, float | np.floating) and math.isnan(v)):
-        return "–"
-    if isinstance(v, float | np.floating):
-        if col.endswith("_ft") or col in ("altitude_ft_min", "altitude_ft_max"):
-            return f"{v:,.0f}"
-        return f"{v:.2f}" if abs(v) < 10 else f"{v:.1f}"
-    return str(v)
+    return format_value(v, col, missing=unknown, grouping=True)
+
+
+def _word(v, default="unknown") -> str:
+    return default if _missing(v) else str(v)
+
+
+def _hhmm(v) -> str:
+    from icing.report.tables import iso_utc
+
+    return "unknown" if _missing(v) else iso_utc(v)[11:16]
+
+
+def _intensity_badge(word, data) -> str:
+    word = _word(word)
+    cls = word if word in INTENSITY_WORDS else "unknown"
+    if word == "unknown":
+        return '<span class="badge i-unknown" title="no usable data: icing unknown, not absent">UNKNOWN</span>'
+    shown = word.upper() if word in ("moderate", "severe") else word
+    if _word(data) == "partial":
+        return (f'<span class="badge i-{cls}" title="at least {_e(word)}: found in the part with data; the rest '
+                f'is unknown">{_e(shown)}*</span>')
+    return f'<span class="badge i-{cls}">{_e(shown)}</span>'
+
+
+def _data_badge(data) -> str:
+    word = _word(data, "missing")
+    cls = word if word in DATA_WORDS else "missing"
+    title = {"ok": "complete data along the segment", "partial": "data along part of the segment only: the "
+             "values are a lower bound", "missing": "no usable data: icing unknown, not absent"}[cls]
+    return f'<span class="badge d-{cls}" title="{_e(title)}">{_e(word.upper() if cls == "missing" else word)}</span>'
+
+
+def _altitudes(lo, hi) -> str:
+    if _missing(lo) and _missing(hi):
+        return "unknown"
+    if _missing(lo) or _missing(hi) or abs(float(hi) - float(lo)) < 50:
+        return _fmt(hi if _missing(lo) else lo, "altitude_ft")
+    return f"{_fmt(lo, 'altitude_ft')}–{_fmt(hi, 'altitude_ft')}"
 
 
 def _png_data(fig) -> tuple[str, bytes]:
@@ -82,7 +195,7 @@ def _haversine_km(lat1, lon1, lat2, lon2):
 
 def _used_labels(assessment) -> list[str]:
     seen = []
-    for s in assessment.segments["sources"].fillna(""):
+    for s in assessment.segments["sources"].astype(object).fillna(""):
         for lab in str(s).split(";"):
             lab = lab.strip()
             if lab and lab not in seen:
@@ -135,20 +248,143 @@ def source_rows(assessment, source=None) -> list[dict]:
     return rows
 
 
+def _glance(assessment) -> list[str]:
+    """Key figures: worst intensity (where), minutes in icing, accretion, data status (how sure)."""
+    s, seg = assessment.summary, assessment.segments
+    worst = _word(s.get("worst_intensity"))
+    where = ""
+    ws = s.get("worst_segment")
+    if not _missing(ws) and (seg["segment"] == ws).any():
+        r = seg[seg["segment"] == ws].iloc[0]
+        where = f" segment {int(ws)}, {_word(r['start'], '?')}–{_word(r['end'], '?')}"
+    data = seg["data"].astype(object).where(seg["data"].notna(), "missing")
+    counts = {w: int((data == w).sum()) for w in DATA_WORDS}
+    body = s.get("reference_body_diameter_m")
+    body_txt = "" if _missing(body) else f" on the {float(body) * 1000:.0f} mm reference body"
+    partial = counts["partial"] + counts["missing"] > 0
+    cards = [("worst", _intensity_badge(worst, "ok") + _e(where)),
+             ("in icing", ("at least " if partial else "")
+              + f"<b>{_e(_fmt(s.get('total_icing_minutes'), 'icing_minutes', 'unknown'))} min</b>"),
+             ("accretion", ("at least " if partial else "")
+              + f"<b>{_e(_fmt(s.get('total_accretion_mm'), 'accretion_mm', 'unknown'))} mm</b>" + _e(body_txt)),
+             ("data", " ".join(f'{_data_badge(w)}&nbsp;{counts[w]}' for w in DATA_WORDS))]
+    best = s.get("best_altitude_plan_accretion_mm")
+    cards.append(("at the best altitudes", f"<b>{_e(_fmt(best, 'accretion_mm'))} mm</b>"
+                  if not _missing(best) else "n/a: a segment has no alternative with full data"))
+    return ['<section class="glance" aria-label="at a glance">'] + [
+        f'<div class="card"><span class="k">{_e(k)}</span>{v}</div>' for k, v in cards] + ["</section>"]
+
+
+def _detail_items(row) -> list[tuple[str, str]]:
+    items = []
+    for c in DETAILS:
+        if c not in row:
+            continue
+        v = row[c]
+        if c == "sources":
+            labels = [x.strip() for x in str(v).split(";") if x.strip()] if not _missing(v) else []
+            text = ", ".join(labels) if labels else "none (no usable data)"
+        else:
+            text = _fmt(v, c, "unknown")
+        items.append((SEGMENT_HEADINGS.get(c, c), text))
+    return items
+
+
+def _digest(row) -> str:
+    """One line folded above a row's details: how sure (data used) and what else there is."""
+    parts = []
+    src = row.get("sources")
+    n = len([x for x in str(src).split(";") if x.strip()]) if not _missing(src) else 0
+    parts.append(f"{n} report{'s' if n != 1 else ''} used" if n else "no report used")
+    if not _missing(row.get("data_distance_km")):
+        parts.append(f"data within {_fmt(row['data_distance_km'], 'data_distance_km')} km, "
+                     f"{_fmt(row.get('data_age_h'), 'data_age_h', 'unknown')} h old")
+    if not _missing(row.get("best_altitude_ft")):
+        parts.append(f"best altitude {_fmt(row['best_altitude_ft'], 'best_altitude_ft')} ft "
+                     f"({_fmt(row.get('best_accretion_mm'), 'best_accretion_mm', 'unknown')} mm)")
+    return " · ".join(parts)
+
+
+def _segment_table(assessment) -> list[str]:
+    seg = assessment.segments
+    heads = [("#", ""), ("from", "t"), ("to", "t"), ("time (UTC)", "t"), ("altitude (ft)", ""),
+             ("minutes in icing", ""), ("accretion (mm)", ""), ("intensity", "t"), ("ice type", "t"),
+             ("large drops", "t"), ("data", "t")]
+    out = ['<table id="segments"><thead><tr>' + "".join(f'<th class="{c}">{_e(h)}</th>' for h, c in heads)
+           + "</tr></thead><tbody>"]
+    for row in seg.to_dict(orient="records"):
+        data = _word(row.get("data"), "missing")
+        word = _word(row.get("intensity"))
+        when = f"{_hhmm(row.get('start_time'))}–{_hhmm(row.get('end_time'))}"
+        partial = data == "partial"
+        cells = [("#", _e(row["segment"]), "id"), ("from", _e(_word(row.get("start"), "?")), "t id"),
+                 ("to", _e(_word(row.get("end"), "?")), "t id"), ("time UTC", _e(when), "t"),
+                 ("altitude ft", _e(_altitudes(row.get("altitude_ft_min"), row.get("altitude_ft_max"))), ""),
+                 ("minutes in icing", _e(_fmt(row.get("icing_minutes"), "icing_minutes", "unknown"))
+                  + ("*" if partial else ""), ""),
+                 ("accretion mm", _e(_fmt(row.get("accretion_mm"), "accretion_mm", "unknown"))
+                  + ("*" if partial else ""), ""),
+                 ("intensity", _intensity_badge(word, data), "t st"),
+                 ("ice type", _e(_word(row.get("ice_type"))), "t"),
+                 ("large drops", _e(_word(row.get("large_drops"))), "t"),
+                 ("data", _data_badge(data), "t st")]
+        out.append(f'<tr class="seg r-{_e(data)}" data-segment="{_e(row["segment"])}" data-data="{_e(data)}" '
+                   f'data-intensity="{_e(word)}">'
+                   + "".join(f'<td class="{c}" data-label="{_e(lab)}">{v}</td>' for lab, v, c in cells) + "</tr>")
+        det = "".join(f"<dt>{_e(k)}</dt><dd>{_e(v)}</dd>" for k, v in _detail_items(row))
+        out.append(f'<tr class="more"><td colspan="{len(heads)}"><details><summary>details of segment '
+                   f'{_e(row["segment"])}: {_e(_digest(row))}</summary><dl class="det">{det}</dl></details>'
+                   "</td></tr>")
+    out.append("</tbody></table>")
+    key = " ".join(_intensity_badge(w, "ok") for w in INTENSITY_WORDS)
+    out.append(f'<p class="key">intensity: {key} · data: {_data_badge("ok")} {_data_badge("partial")} '
+               f'{_data_badge("missing")} · * at least this much: found in the part of the segment with data, '
+               "the rest unknown.</p>")
+    return out
+
+
 def report_html(assessment, images: dict[str, str], source=None) -> str:
-    """The report page as a string; ``images`` maps a caption to a ``data:`` URL."""
+    """The report page as a string; ``images`` maps a caption to a ``data:`` URL.
+
+    One screen answers where, when, how bad and how sure: the caution, the key figures, a compact segment table
+    (details folded per row), then the figures, the summary and the sources. Statuses read as words and as
+    colours; unknown and partial data stand out. ``@media print`` lays it out for an A4 or letter landscape page.
+    """
+    from icing.report.tables import iso_utc
+
     s = assessment.summary
     seg = assessment.segments
+    caution = _e(assessment.caution or CAUTION)
+    first, _, rest = caution.partition(":")
+    caution_html = f"<b>{first}:</b>{rest}" if rest else caution
+    dep = s.get("departure")
+    total_nm = float(np.nansum(seg["distance_nm"].to_numpy(float))) if "distance_nm" in seg and len(seg) else None
+    meta = [f"departure {iso_utc(dep).replace('T', ' ').replace(':00Z', ' UTC')}" if not _missing(dep) else None,
+            f"aircraft {s['aircraft']}" if s.get("aircraft") else None,
+            f"{len(seg)} segment{'s' if len(seg) != 1 else ''}",
+            f"{total_nm:,.0f} nm" if total_nm else None]
     out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
            '<meta name="viewport" content="width=device-width, initial-scale=1">',
            f"<title>Icing screening: {_e(s.get('route', 'route'))}</title>", f"<style>{_STYLE}</style>", "</head>",
-           "<body>", f'<p class="caution" id="caution">{_e(assessment.caution or CAUTION)}</p>',
-           f"<h1>Icing screening of route {_e(s.get('route', ''))}</h1>"]
+           "<body>", f'<p class="caution" id="caution" role="note">{caution_html}</p>',
+           f"<h1>Icing screening of route {_e(s.get('route', ''))}</h1>",
+           f'<p class="meta">{_e(" · ".join(m for m in meta if m))}</p>']
+    out += _glance(assessment)
     n_miss, n_part = s.get("segments_missing_data", 0), s.get("segments_partial_data", 0)
     if n_miss or n_part:
-        out.append(f'<p class="gaps">DATA GAPS: {int(n_miss)} segment(s) without data and {int(n_part)} with partial '
-                   "data. Icing there is UNKNOWN, not absent; hatched areas in the plots mark where.</p>")
-    out.append("<h2>Summary</h2><dl>")
+        out.append(f'<p class="gaps" id="gaps">DATA GAPS: {int(n_miss)} segment(s) without data and {int(n_part)} '
+                   "with partial data. Icing there is UNKNOWN, not absent; hatched areas in the figures mark "
+                   "where.</p>")
+    out.append("<h2>Segments</h2>")
+    out += _segment_table(assessment)
+    out.append('<p class="small">Intensity and accretion are for the aircraft\'s reference body at the planned '
+               "true airspeed. Appendix C / O in the details: whether the conditions are within the 14 CFR Part 25 "
+               "Appendix C / O envelopes.</p>")
+    out.append("<h2>Figures</h2>")
+    for caption, url in images.items():
+        out.append(f'<figure><img src="{url}" alt="{_e(caption)}"><figcaption class="small">{_e(caption)}'
+                   "</figcaption></figure>")
+    out.append('<h2>Summary</h2><dl class="summary">')
     words = [("route", "route"), ("departure", "departure (UTC)"), ("aircraft", "aircraft"),
              ("reference_body_diameter_m", "reference body diameter (m)"), ("segments", "segments"),
              ("total_icing_minutes", "minutes in icing"),
@@ -159,11 +395,11 @@ def report_html(assessment, images: dict[str, str], source=None) -> str:
     for key, word in words:
         if key not in s:
             continue
-        value = _fmt(s[key])
-        if key == "worst_segment" and s[key] is not None and (seg["segment"] == s[key]).any():
+        value = _fmt(s[key], key)
+        if key == "worst_segment" and not _missing(s[key]) and (seg["segment"] == s[key]).any():
             r = seg[seg["segment"] == s[key]].iloc[0]
             value = f"{s[key]} ({r['start']}-{r['end']})"
-        elif key == "worst_segment" and s[key] is None:
+        elif key == "worst_segment" and _missing(s[key]):
             value = "none with icing found" if s.get("worst_intensity") == "none" else "–"
         elif key == "best_altitude_plan_accretion_mm" and value == "–":
             value = "– (a segment has no alternative altitude with full data)"
@@ -171,46 +407,24 @@ def report_html(assessment, images: dict[str, str], source=None) -> str:
     out.append("</dl>")
     if s.get("intensity_note"):
         out.append(f'<p class="small">{_e(s["intensity_note"])}</p>')
-    out.append("<h2>Segments</h2>")
-    cols = [c for c in SEGMENT_HEADINGS if c in seg.columns]
-    out.append('<table id="segments"><thead><tr>' + "".join(f"<th>{_e(SEGMENT_HEADINGS[c])}</th>" for c in cols)
-               + "</tr></thead><tbody>")
-    for row in seg.to_dict(orient="records"):
-        cells = []
-        for c in cols:
-            v = row[c]
-            if c == "sources":
-                v = "; ".join(x for x in str(v).split(";") if x)
-            cls = "t" if isinstance(v, str) else ""
-            if c == "intensity":
-                cls += f" i-{_e(v)}"
-            cells.append(f'<td class="{cls.strip()}">{_e(_fmt(v, c))}</td>')
-        out.append(f'<tr class="{_e(row.get("data", ""))}" data-segment="{_e(row["segment"])}">' + "".join(cells)
-                   + "</tr>")
-    out.append("</tbody></table>")
-    out.append('<p class="small">Intensity and accretion are for the aircraft\'s reference body at the planned '
-               "true airspeed. &ldquo;partial&rdquo; data: the values are a lower bound. App. C / App. O: whether "
-               "the conditions are within the 14 CFR Part 25 Appendix C / O envelopes.</p>")
-    out.append("<h2>Plots</h2>")
-    for caption, url in images.items():
-        out.append(f'<figure><img src="{url}" alt="{_e(caption)}"><figcaption class="small">{_e(caption)}'
-                   "</figcaption></figure>")
     out.append("<h2>Sources used</h2>")
     rows = source_rows(assessment, source)
     if rows:
-        out.append('<table id="sources"><thead><tr><th>report</th><th>used by segments</th><th>nearest distance to '
-                   "the route (km)</th><th>age at the nearest flight time (h)</th><th>file</th></tr></thead><tbody>")
+        out.append('<div class="wide"><table id="sources"><thead><tr><th class="t">report</th><th class="t">used by '
+                   "segments</th><th>nearest distance to the route (km)</th><th>age at the nearest flight time (h)"
+                   '</th><th class="t">file</th></tr></thead><tbody>')
         for r in rows:
             out.append(f'<tr><td class="t">{_e(r["label"])}</td><td class="t">{_e(r["used_by"] or "not used")}</td>'
-                       f'<td>{_e(_fmt(r["distance_km"]))}</td><td>{_e(_fmt(r["age_h"]))}</td>'
-                       f'<td class="t">{_e(r["file"])}</td></tr>')
-        out.append("</tbody></table>")
+                       f'<td>{_e(_fmt(r["distance_km"], "distance_km"))}</td>'
+                       f'<td>{_e(_fmt(r["age_h"], "age_h"))}</td>'
+                       f'<td class="file">{_e(r["file"])}</td></tr>')
+        out.append("</tbody></table></div>")
         if source is None:
-            out.append('<p class="small">Per segment, the farthest and oldest data used are in the segment table '
-                       "(data distance, data age).</p>")
+            out.append('<p class="small">Per segment, the farthest and oldest data used are in the details of each '
+                       "row of the segment table.</p>")
     else:
         out.append("<p>No source had data along this route: icing is UNKNOWN along all of it.</p>")
-    out.append(f'<p class="caution">{_e(assessment.caution or CAUTION)}</p>')
+    out.append(f'<p class="caution">{caution_html}</p>')
     out.append("</body></html>")
     return "\n".join(out)
 
