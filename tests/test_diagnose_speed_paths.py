@@ -3,20 +3,26 @@
 These are tests of equality between two ways of computing the same thing inside the project (the physics
 itself is checked against published values and MetPy in test_diagnose.py, test_layers.py, test_thermo.py
 and test_microphysics.py): the tabulated Appendix C stratiform cap against the bisection through the
-public envelope and MVD functions, the relative humidities with
-shared logarithms against icing.physics.thermo, the Bourgouin energy areas against the direct transcription of
-Bourgouin (2000) eq. 1 over every interval, and the block threads against one thread.
+public envelope and MVD functions, the kernel's relative humidities (shared logarithms) against
+icing.physics.thermo, the Bourgouin energy areas against a direct numpy transcription of Bourgouin (2000)
+eq. 1 over every interval, the compiled kernel against the same functions run uncompiled, and the block
+threads against one thread.
 """
 
+import os
+import pickle
+import subprocess
+import sys
 import threading
+from pathlib import Path
 
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
 from icing.errors import ConfigError
-from icing.physics import adiabat, layers, thermo
 from icing.physics import diagnose as diag
+from icing.physics import precipitation, thermo
 from icing.physics.diagnose import diagnose_arrays
 
 AIRMASSES = [("continental", 290e6), ("marine", 75e6), (150.0, 150e6), (20.0, 20e6), (2000.0, 2000e6)]
@@ -35,40 +41,42 @@ def _levels(n, seed):
 
 @pytest.mark.parametrize(("airmass", "n_drop"), AIRMASSES)
 def test_tabulated_cap_equals_bisection(airmass, n_drop):
-    """The tabulated stratiform cap equals the bisection at each level's own temperature (through
-    icing.physics.envelopes.continuous_max_lwc_si and icing.physics.microphysics.median_volume_diameter) within
-    1e-5 g/m3
-    (the table is linear between 0.005 K points; kinks of the envelope cost a few 1e-6)."""
-    lwc, kind, t, model = _levels(60_000, 3)
-    fast = diag._cap_stratiform(lwc, kind, t, model, airmass, n_drop)
-    plain = diag._cap_stratiform_reference(lwc, kind, t, model, airmass, n_drop)
-    assert_allclose(fast, plain, rtol=0, atol=1e-5)
-    assert (fast < lwc).sum() > 1000  # the cap bites on many levels, so the test is not empty
+    """The tabulated stratiform cap, interpolated, equals the bisection at each level's own temperature
+    (through icing.physics.envelopes.continuous_max_lwc_si and icing.physics.microphysics.median_volume_diameter)
+    within 1e-5 g/m3 (the table is linear between 0.005 K points; kinks of the envelope cost a few 1e-6)."""
+    _, _, t, _ = _levels(60_000, 3)
+    tc = np.clip(t - thermo.T0, -30.0, 0.0)
+    table_t, table_cap = diag._cap_table(airmass, n_drop)
+    assert_allclose(np.interp(tc, table_t, table_cap), diag._cap_by_bisection(tc, airmass, n_drop), rtol=0,
+                    atol=1e-5)
 
 
 def test_relative_humidities_equal_thermo():
-    """RH over water and ice with shared logarithms equals 100 x icing.physics.thermo.relative_humidity_water / _ice
-    (Murphy and Koop 2005) to rounding, 1e-12 relative, from -90 to +45 degC; NaN stays NaN."""
+    """RH over water and ice of the kernel (shared logarithms) equals 100 x icing.physics.thermo.
+    relative_humidity_water / _ice (Murphy and Koop 2005) to rounding, 1e-12 relative, from -90 to +45 degC;
+    NaN stays NaN."""
     rng = np.random.default_rng(6)
     t = rng.uniform(183.0, 318.0, (300, 40))
     td = t - rng.uniform(0.0, 40.0, t.shape)
     td[0, :5] = np.nan
-    rh_w, rh_i = diag._relative_humidities(t, np.log(t), td)
-    assert_allclose(rh_w, 100.0 * thermo.relative_humidity_water(t, td), rtol=1e-12, equal_nan=True)
-    assert_allclose(rh_i, 100.0 * thermo.relative_humidity_ice(t, td), rtol=1e-12, equal_nan=True)
-    assert np.isnan(rh_w[0, :5]).all()
+    p = np.linspace(100000.0, 20000.0, 40)
+    out = diagnose_arrays(p, t, td, thermo.standard_atmosphere_height(p)[None, :] + 0.0 * t)
+    known = np.isfinite(td)
+    assert_allclose(out["rh_water"][known], 100.0 * thermo.relative_humidity_water(t, td)[known], rtol=1e-12)
+    assert_allclose(out["rh_ice"][known], 100.0 * thermo.relative_humidity_ice(t, td)[known], rtol=1e-12)
+    assert not out["valid"][0, :5].any()
 
 
 def _energy_area_direct(p, t):
     """Bourgouin (2000) eq. 1 over every interval, split where T crosses 0 degC (T linear in ln p)."""
     x = np.log(p)
     with np.errstate(invalid="ignore", divide="ignore"):
-        lnth = np.log(t) - layers.KAPPA * x
+        lnth = np.log(t) - thermo.KAPPA * x
         d0, d1 = t[:, :-1] - thermo.T0, t[:, 1:] - thermo.T0
         cross = (d0 > 0) != (d1 > 0)
         frac = np.where(cross, d0 / (d0 - d1), 1.0)
         xc = x[:, :-1] + frac * (x[:, 1:] - x[:, :-1])
-        lnth_c = np.where(cross, np.log(thermo.T0) - layers.KAPPA * xc, lnth[:, 1:])
+        lnth_c = np.where(cross, np.log(thermo.T0) - thermo.KAPPA * xc, lnth[:, 1:])
         lower = thermo.CP_D * np.abs(np.where(cross, 0.5 * d0, 0.5 * (d0 + d1)) * (lnth_c - lnth[:, :-1]))
         upper = np.where(cross, thermo.CP_D * np.abs(0.5 * d1 * (lnth[:, 1:] - lnth_c)), 0.0)
     out = np.zeros(p.shape)
@@ -84,7 +92,7 @@ def test_energy_area_equals_direct_form():
     p = np.linspace(100000.0, 30000.0, 30)[None, :] * rng.uniform(0.97, 1.03, (500, 1))
     t = 278.0 - np.cumsum(rng.uniform(-1.5, 2.5, (500, 30)), axis=1)
     t[:5, -4:] = np.nan
-    assert_allclose(layers.energy_area_by_level(p, t), _energy_area_direct(p, t), rtol=1e-13, atol=0.0)
+    assert_allclose(precipitation.energy_area_by_level(p, t), _energy_area_direct(p, t), rtol=1e-13, atol=0.0)
 
 
 def _synthetic(n_profiles, seed=1):
@@ -102,22 +110,28 @@ def _synthetic(n_profiles, seed=1):
     return p, t, td, thermo.hypsometric_heights(p, t, td, anchor_height=rng.uniform(0.0, 500.0, n_profiles))
 
 
-def test_precomputed_logs_change_nothing():
-    """Passing ln p and ln T to the adiabat and the precipitation type gives what recomputing them gives."""
-    p, t, td, z = _synthetic(300)
-    out = diagnose_arrays(p, t, td, z)
-    cloud = out["in_cloud"]
-    a = adiabat.adiabatic_lwc_from_bases(p, t, cloud)
-    b = adiabat.adiabatic_lwc_from_bases(p, t, cloud, log_pressure=np.log(p))
-    assert_array_equal(a[0], b[0])
-    assert_array_equal(a[1], b[1])
-    src = np.where(cloud.any(axis=-1), 39 - np.argmax(cloud[:, ::-1], axis=-1), -1)
-    phase = np.full(300, 1)
-    ok = np.ones(300, bool)
-    a = layers.precipitation_type(p, t, src, phase, ok)
-    b = layers.precipitation_type(p, t, src, phase, ok, log_pressure=np.log(p), log_temperature=np.log(t))
-    assert_array_equal(a[0], b[0])
-    assert_array_equal(a[1], b[1])
+def test_compiled_kernel_equals_the_functions_run_uncompiled():
+    """The compiled diagnosis equals the same functions run as plain Python (numba's NUMBA_DISABLE_JIT), in a
+    subprocess, on random profiles with moist layers and warm noses: flags equal, numbers to 1e-12."""
+    code = (
+        "import pickle, sys\n"
+        f"sys.path.insert(0, {str(Path(__file__).parent)!r})\n"
+        "from test_diagnose_speed_paths import _synthetic\n"
+        "from icing.physics.diagnose import diagnose_arrays\n"
+        "p, t, td, z = _synthetic(40, seed=5)\n"
+        "sys.stdout.buffer.write(pickle.dumps(diagnose_arrays(p, t, td, z, threads=1)))\n"
+    )
+    env = {**os.environ, "NUMBA_DISABLE_JIT": "1"}
+    plain = pickle.loads(subprocess.run([sys.executable, "-c", code], env=env, capture_output=True,
+                                        check=True).stdout)
+    p, t, td, z = _synthetic(40, seed=5)
+    compiled = diagnose_arrays(p, t, td, z, threads=1)
+    for k, v in compiled.items():
+        if v.dtype.kind == "f":
+            assert_allclose(v, plain[k], rtol=1e-12, atol=1e-12, equal_nan=True, err_msg=k)
+        else:
+            assert_array_equal(v, plain[k], err_msg=k)
+    assert compiled["supercooled"].any() and (compiled["large_drop"] > 0).any()
 
 
 def test_threads_do_not_change_results(monkeypatch):
@@ -152,17 +166,3 @@ def test_thread_count_rules(monkeypatch):
         diag._thread_count(None)
     with pytest.raises(ConfigError, match="at least 1"):
         diag._thread_count(0)
-
-
-def test_run_reductions_equal_filled_reductions():
-    """Reducing each run alone (with the fill folded in) equals reducing the filled array up to the next
-    run start, NaN and all-NaN runs included, on random masks."""
-    rng = np.random.default_rng(8)
-    for _ in range(300):
-        shape = (int(rng.integers(1, 6)), int(rng.integers(1, 9)))
-        mask = rng.random(shape) < rng.uniform(0.2, 0.9)
-        v = rng.normal(size=shape)
-        v[rng.random(shape) < 0.3] = np.nan
-        s, e, _ = layers._runs(mask)
-        for ufunc, fill in ((np.fmax, -np.inf), (np.fmin, np.inf)):
-            assert_array_equal(layers._reduce_runs(ufunc, v, s, e, fill), layers._reduce(ufunc, v, mask, s, fill))

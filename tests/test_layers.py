@@ -8,7 +8,7 @@ from metpy.units import units
 from numpy.testing import assert_allclose
 from scipy.optimize import brentq
 
-from icing.physics import layers, thermo
+from icing.physics import cloud, layers, precipitation, thermo
 from icing.physics.diagnose import diagnose_arrays
 from icing.profile import build_profile
 
@@ -36,7 +36,7 @@ Z = np.arange(0.0, 10000.0, 50.0)
 
 
 def _mask(rh):
-    c, _ = layers.cloud_mask(Z[None], np.asarray(rh, float)[None])
+    c, _ = cloud.cloud_mask(Z[None], np.asarray(rh, float)[None])
     return c[0]
 
 
@@ -121,7 +121,7 @@ def test_energy_area_against_metpy():
     """Layer areas summed from our per-level areas equal the fine-grid MetPy integral (Bourgouin 2000 eq. 1)."""
     nodes = _warm_nose(-4.0, 3.0)
     pa, tk, _, _ = _column(*nodes)
-    a = layers.energy_area_by_level(pa[None], tk[None])[0]
+    a = precipitation.energy_area_by_level(pa[None], tk[None])[0]
     warm = tk > 273.15
     assert_allclose(a[warm].sum(), _reference_area(*nodes, 900, 800), rtol=0.02)
     cold_low = (P_HPA >= 900) & ~warm

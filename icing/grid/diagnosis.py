@@ -28,7 +28,7 @@ import xarray as xr
 from icing import CAUTION
 from icing.errors import ConfigError, IcingError
 from icing.physics import thermo
-from icing.physics.diagnose import DEFAULT_COLD_LIMIT_C, LEVEL_OUTPUTS, PROFILE_OUTPUTS, _engine
+from icing.physics.diagnose import DEFAULT_COLD_LIMIT_C, FIELD_ATTRS, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
 from icing.units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
@@ -120,7 +120,7 @@ def _quiet_nan():
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
-              cold_limit=233.15, airmass="continental", engine=None, **thresholds):
+              cold_limit=233.15, airmass="continental", **thresholds):
     """The whole chain on a block of columns, plain SI numpy in and out (shape (..., level)).
 
     Parameters
@@ -130,9 +130,6 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     airspeed, body_diameter : float, optional
         True airspeed (m/s) and reference-body diameter (m) for the accretion potential; without them only
         the diagnostics and the freezing-level/supercooled summaries are computed.
-    engine : {"auto", "numpy", "numba"}, optional
-        As :func:`icing.physics.diagnose.diagnose_arrays`; the fused engine also computes the column summaries and the
-        intensity codes and column maxima of the accretion potential (same results).
 
     Returns
     -------
@@ -144,15 +141,12 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
         :func:`icing.physics.accretion.ice_type_code`; -1 unknown),
         ``max_potential_intensity`` and ``max_potential_rate`` per column.
     """
-    from icing.physics.diagnose import _chain
-
     shape = np.broadcast_shapes(*(np.shape(a) for a in (pressure, temperature, dewpoint, height)))
-    d, fused = _chain(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit, airmass=airmass,
-                      threads=None, engine=engine, summaries=True, thresholds=thresholds)
+    d = diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit,
+                        airmass=airmass, **thresholds)
     z = np.broadcast_to(np.asarray(height, dtype=float), shape)
     t = np.broadcast_to(np.asarray(temperature, dtype=float), shape)
-    if "freezing_level_m" not in d:  # the numpy engine, or levels not in pressure order
-        d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
+    d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
     if airspeed is None:
         return d
     from icing.physics.accretion import accretion_core, intensity_code
@@ -168,21 +162,14 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
                               t.ravel()[idx], p, float(body_diameter))
         rate.ravel()[idx] = core["thickness_rate"]
         ice.ravel()[idx] = core["ice_type"]
-    if fused:
-        from icing.physics.fused import potential_summary
-
-        n = shape[-1]
-        code, worst, max_rate = potential_summary(rate.reshape(-1, n), valid.reshape(-1, n))
-        code, worst, max_rate = code.reshape(shape), worst.reshape(shape[:-1]), max_rate.reshape(shape[:-1])
-    else:
-        code = intensity_code(rate).astype(np.int8)
-        first = np.argmax(valid, axis=-1)[..., None]
-        above_first = np.arange(shape[-1]) >= first
-        unknown_aloft = np.any(~valid & above_first, axis=-1)
-        worst = code.max(axis=-1)
-        worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
-        with _quiet_nan():
-            max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
+    code = intensity_code(rate)
+    first = np.argmax(valid, axis=-1)[..., None]
+    above_first = np.arange(shape[-1]) >= first
+    unknown_aloft = np.any(~valid & above_first, axis=-1)
+    worst = code.max(axis=-1)
+    worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
+    with _quiet_nan():
+        max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
     rate *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
     rate *= 3600.0
     d.update({"potential_rate": rate, "potential_intensity": code, "ice_type": ice,
@@ -203,7 +190,7 @@ def _aircraft(aircraft, airspeed_kt=None):
 
 
 def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental",
-                  airspeed_kt=None, engine=None, outputs=None, **thresholds) -> xr.Dataset:
+                  airspeed_kt=None, outputs=None, **thresholds) -> xr.Dataset:
     """Diagnostics, summaries and (with an aircraft) the accretion potential of a whole gridded profile Dataset.
 
     Parameters
@@ -217,9 +204,6 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         Coldest supercooled liquid, degC (default -40).
     airmass, thresholds :
         As :func:`icing.physics.diagnose.diagnose`.
-    engine : {"auto", "numpy", "numba"}, optional
-        As :func:`icing.physics.diagnose.diagnose_arrays` (per chunk): numba's fused kernel when installed, for chunks
-        of at least :data:`icing.physics.diagnose.FUSED_MIN_POINTS` level-points; the same results either way.
     outputs : iterable of str, optional
         Only these of the computed fields (for example the column summaries): the chain still runs whole,
         but a chunk's level fields are dropped as soon as it is done instead of being held until every output
@@ -235,10 +219,7 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         ``supercooled_top_m`` (and ``max_potential_intensity``, ``max_potential_rate``). Attributes carry the
         settings, the model's ``quality`` record and the caution.
     """
-    from icing.physics import diagnose as _diagnose
-    from icing.physics.layers import CLOUD_DEFAULTS
-
-    diag_attrs = getattr(_diagnose, "_ATTRS", {})  # the level fields' units and long names, kept with them
+    from icing.physics.cloud import CLOUD_DEFAULTS
 
     for name in ("pressure", "temperature", "dewpoint", "height"):
         if name not in model:
@@ -248,7 +229,6 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     unknown = set(thresholds) - set(CLOUD_DEFAULTS)
     if unknown:
         raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(CLOUD_DEFAULTS)}")
-    _engine(engine, 0)  # an unknown engine, or numba asked for and missing, fails now rather than in a worker
     ck = float(cold_limit) + thermo.T0
     ac, tas, diam = _aircraft(aircraft, airspeed_kt)
     inputs = [dataarray_to_unit(model[name], unit)
@@ -268,7 +248,7 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
 
     def core(*arrs):
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
-                        cold_limit=ck, airmass=airmass, engine=engine, **thresholds)
+                        cold_limit=ck, airmass=airmass, **thresholds)
         return tuple(out[k] for k in names) if len(names) > 1 else out[names[0]]
 
     core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []
@@ -285,7 +265,7 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
                         "cloud_liquid") if v in model]
     ds = model[keep].copy()
     for name, da, dims in zip(names, results, core_dims, strict=True):
-        ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or diag_attrs.get(name, {}))
+        ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or FIELD_ATTRS.get(name, {}))
     if "freezing_levels" in names:
         ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1))
     ds.attrs = {k: v for k, v in model.attrs.items() if k not in ("featureType", "icing_model")}
@@ -492,8 +472,6 @@ def add_grid_parser(subparsers):
     where = gp.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, metavar="N", help="run on a dask LocalCluster of N processes")
     where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster")
-    gp.add_argument("--engine", choices=["auto", "numpy", "numba"], default=None,
-                    help="numpy arrays, or numba's fused kernel (same results; default auto: numba if installed)")
     gp.add_argument("--quiet", action="store_true", help="no progress bar")
     return gp
 
@@ -538,7 +516,7 @@ def grid_main(args) -> int:
     model = open_fields(args.fields, args.chunk_points)
     summary = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS)
     ds = diagnose_grid(model, args.aircraft, cold_limit=args.cold_limit, airmass=args.airmass,
-                       airspeed_kt=args.airspeed, engine=args.engine,
+                       airspeed_kt=args.airspeed,
                        outputs=summary if args.summary_only else None)
     names = None
     if args.summary_only:
@@ -550,16 +528,14 @@ def grid_main(args) -> int:
     chunks = getattr(ds["temperature"].data, "npartitions", 1)
     if not _have_dask():
         where = "numpy in this process"
-    per_chunk = npts / max(chunks, 1)
-    engine = "numba (compiled)" if _engine(args.engine, per_chunk) else "numpy"
-    print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}, "
-          f"engine {engine}", file=sys.stderr)
-    if engine != "numpy" and not args.workers and not args.scheduler:
-        from icing.physics import fused
+    print(f"icing grid: {npts:,} level-points in {chunks} chunk{'s' if chunks != 1 else ''} on {where}",
+          file=sys.stderr)
+    if not args.workers and not args.scheduler:
+        from icing.physics.diagnose import compile_kernels
 
-        print("icing grid: loading the compiled kernels (their first use on a machine compiles them, about "
-              "20 s)", file=sys.stderr)
-        fused._kernels()
+        print("icing grid: loading the compiled diagnosis kernel (its first use on a machine compiles it once)",
+              file=sys.stderr)
+        compile_kernels()
     with scheduler(args.workers, args.scheduler) as client:
         out = write_grid(ds, args.out, client=client, progress=not args.quiet, variables=names)
     with xr.open_dataset(out, engine="h5netcdf") if out.suffix != ".zarr" else xr.open_zarr(out) as res:

@@ -13,8 +13,10 @@ import functools
 import numpy as np
 
 from icing.physics import thermo
+from icing.physics.jit import jitable
 
-__all__ = ["LV", "saturation_vapor_pressure_bolton", "saturation_mixing_ratio_bolton",
+__all__ = ["LV", "saturation_vapor_pressure_bolton", "saturation_mixing_ratio_bolton", "moist_adiabat_tables",
+           "table_lookup", "parcel_in_layer",
            "wet_bulb_potential_temperature_saturated", "moist_adiabat_temperature_from_theta_w",
            "moist_lapse_rate_lnp", "moist_adiabat_step", "moist_adiabat_temperature",
            "adiabatic_liquid_water_content", "adiabatic_lwc_from_bases"]
@@ -22,6 +24,7 @@ __all__ = ["LV", "saturation_vapor_pressure_bolton", "saturation_mixing_ratio_bo
 LV = 2.50084e6  # J/kg, latent heat of vaporisation at 0 degC (as MetPy's constant)
 
 
+@jitable
 def saturation_vapor_pressure_bolton(temperature):
     """Saturation vapour pressure over liquid water (Pa), Bolton (1980), Mon. Wea. Rev. 108, 1046-1053, eq. 10.
 
@@ -30,14 +33,14 @@ def saturation_vapor_pressure_bolton(temperature):
     Bolton states 0.1 % from -35 to 35 degC; against MetPy (Ambaum 2020) it is within 0.5 % from -40 to
     35 degC (tests). One exponential, so it is the one used in the moist adiabat.
     """
-    t = np.asarray(temperature, dtype=float)
-    return 611.2 * np.exp(17.67 * (t - 273.15) / (t - 29.65))
+    return 611.2 * np.exp(17.67 * (temperature - 273.15) / (temperature - 29.65))
 
 
+@jitable
 def saturation_mixing_ratio_bolton(pressure, temperature):
     """Saturation mixing ratio over water (kg/kg) with the Bolton (1980) vapour pressure."""
     es = saturation_vapor_pressure_bolton(temperature)
-    return thermo.EPSILON * es / np.maximum(np.asarray(pressure, dtype=float) - es, 1e-3)
+    return thermo.EPSILON * es / np.maximum(pressure - es, 1e-3)
 
 
 def moist_lapse_rate_lnp(pressure, temperature):
@@ -49,8 +52,8 @@ def moist_lapse_rate_lnp(pressure, temperature):
     lapse rate of Bakhshaii and Stull (2013) and of MetPy's ``moist_lapse`` (AMS Glossary of Meteorology,
     "pseudoadiabatic lapse rate"), written per unit ln p. Valid for tropospheric air, about 200-320 K.
     """
-    rs = saturation_mixing_ratio_bolton(pressure, temperature)
     t = np.asarray(temperature, dtype=float)
+    rs = saturation_mixing_ratio_bolton(np.asarray(pressure, dtype=float), t)
     return (thermo.RD * t + LV * rs) / (thermo.CP_D + LV * LV * rs * thermo.EPSILON / (thermo.RD * t * t))
 
 
@@ -97,6 +100,7 @@ def moist_adiabat_temperature(pressure, base_pressure, base_temperature, max_ste
     return out
 
 
+@jitable
 def adiabatic_liquid_water_content(pressure, parcel_temperature, total_water):
     """Adiabatic liquid water content (kg/m3) of a saturated parcel.
 
@@ -109,12 +113,10 @@ def adiabatic_liquid_water_content(pressure, parcel_temperature, total_water):
     phase split is applied by the caller (Hu et al. 2010). Any textbook derivation, e.g. Rogers and Yau
     (1989), *A Short Course in Cloud Physics*, ch. 2.
     """
-    p = np.asarray(pressure, dtype=float)
-    tp = np.asarray(parcel_temperature, dtype=float)
-    es = saturation_vapor_pressure_bolton(tp)
-    rho_d = (p - es) / (thermo.RD * tp)
-    rs = thermo.EPSILON * es / np.maximum(p - es, 1e-3)
-    return rho_d * np.maximum(np.asarray(total_water, dtype=float) - rs, 0.0)
+    es = saturation_vapor_pressure_bolton(parcel_temperature)
+    rho_d = (pressure - es) / (thermo.RD * parcel_temperature)
+    rs = thermo.EPSILON * es / np.maximum(pressure - es, 1e-3)
+    return rho_d * np.maximum(total_water - rs, 0.0)
 
 
 # Moist adiabats tabulated once: parcel temperature T(theta_w, ln p) every 0.5 K and 0.01 in ln p, built with
@@ -146,26 +148,95 @@ def _tables():
     return tab, inv
 
 
-def _bilinear(table, axis0, values0, lnp):
-    """Bilinear interpolation in a (axis0, _LNP) table; inputs are clipped to the table's range; a NaN input
-    gives NaN."""
-    f0 = np.clip((values0 - axis0[0]) / (axis0[1] - axis0[0]), 0.0, axis0.size - 1.000001)
-    f1 = np.clip((lnp - _LNP[0]) / (_LNP[1] - _LNP[0]), 0.0, _LNP.size - 1.000001)
-    nan = ~(np.isfinite(f0) & np.isfinite(f1))
-    if nan.any():  # (a level without pressure, say): look up row 0 there and blank the result below
-        f0 = np.where(nan, 0.0, f0)
-        f1 = np.where(nan, 0.0, f1)
-    i0 = f0.astype(np.intp)
-    i1 = f1.astype(np.intp)
+@functools.lru_cache(maxsize=1)
+def moist_adiabat_tables():
+    """The tabulated moist adiabats in the form the column kernels read: ``(table, tw_axis, inverse,
+    tt_axis, lnp_axis)``: ``table`` T(theta_w, ln p) and ``inverse`` theta_w(T, ln p) raveled (C order), each
+    axis as (first value, step, size)."""
+    tab, inv = _tables()
+    axis = lambda a: np.array([a[0], a[1] - a[0], a.size], dtype=float)  # noqa: E731
+    return (np.ascontiguousarray(tab).ravel(), axis(_TW), np.ascontiguousarray(inv).ravel(), axis(_TT),
+            axis(_LNP))
+
+
+@jitable
+def table_lookup(flat, axis0, value, lnp_axis, lnp):
+    """Bilinear interpolation at (``value``, ``lnp``) in a table over (axis0, ln p) raveled to ``flat``;
+    axes as (first, step, size) (:func:`moist_adiabat_tables`). Inputs are held to the table's range; a NaN
+    input gives NaN (never an index outside the table). Scalars; compiled in the column kernels."""
+    if not (np.isfinite(value) and np.isfinite(lnp)):
+        return np.nan
+    f0 = min(max((value - axis0[0]) / axis0[1], 0.0), axis0[2] - 1.000001)
+    f1 = min(max((lnp - lnp_axis[0]) / lnp_axis[1], 0.0), lnp_axis[2] - 1.000001)
+    i0 = int(f0)
+    i1 = int(f1)
     w0 = f0 - i0
     w1 = f1 - i1
-    ncol = table.shape[1]
-    flat = table.ravel()
-    k = i0 * ncol + i1  # flat index of table[i0, i1]; np.take is faster than 2-D fancy indexing
-    a = np.take(flat, k) * (1.0 - w1) + np.take(flat, k + 1) * w1
-    b = np.take(flat, k + ncol) * (1.0 - w1) + np.take(flat, k + ncol + 1) * w1
-    out = a * (1.0 - w0) + b * w0
-    return np.where(nan, np.nan, out) if nan.any() else out
+    ncol = np.int64(lnp_axis[2])
+    k = i0 * ncol + i1
+    a = flat[k] * (1.0 - w1) + flat[k + 1] * w1
+    b = flat[k + ncol] * (1.0 - w1) + flat[k + ncol + 1] * w1
+    return a * (1.0 - w0) + b * w0
+
+
+@jitable
+def parcel_in_layer(p, lnp, t, start, end, tables, parcel_temperature, lwc_adiabatic):
+    """The parcel of one cloud layer (levels ``start``..``end`` of a column, pressure decreasing): its
+    temperature (K) on the moist adiabat through the base, where it starts saturated at the air's
+    temperature, and its adiabatic LWC (kg/m3, :func:`adiabatic_liquid_water_content` with the base's
+    saturation mixing ratio as total water), written into ``parcel_temperature`` and ``lwc_adiabatic``.
+    The adiabat is looked up in :func:`moist_adiabat_tables`. Returns the largest excess of the parcel over
+    the air temperature in the layer (K), which tells convective from stratiform cloud."""
+    tab, tab_ax, inv, inv_ax, lnp_ax = tables
+    tb = t[start]
+    tw = table_lookup(inv, inv_ax, tb, lnp_ax, lnp[start])  # wet-bulb potential temperature of the base
+    rt = saturation_mixing_ratio_bolton(p[start], tb)
+    excess = -np.inf
+    for k in range(start, end + 1):
+        tp = tb if k == start else table_lookup(tab, tab_ax, tw, lnp_ax, lnp[k])
+        parcel_temperature[k] = tp
+        lwc_adiabatic[k] = adiabatic_liquid_water_content(p[k], tp, rt)
+        if tp - t[k] > excess:
+            excess = tp - t[k]
+    return excess
+
+
+def _lookup_many(flat, axis0, values, lnp_axis, lnp):
+    out = np.empty(values.size)
+    for i in range(values.size):
+        out[i] = table_lookup(flat, axis0, values[i], lnp_axis, lnp[i])
+    return out
+
+
+def _parcels(p, t, in_cloud, tables, tp, lwc):
+    lnp = np.log(p)
+    for i in range(p.shape[0]):
+        k = 0
+        n = p.shape[1]
+        while k < n:
+            if in_cloud[i, k]:
+                s = k
+                while k + 1 < n and in_cloud[i, k + 1]:
+                    k += 1
+                parcel_in_layer(p[i], lnp[i], t[i], s, k, tables, tp[i], lwc[i])
+            k += 1
+
+
+@functools.lru_cache(maxsize=1)
+def _compiled():
+    from icing.physics.jit import jit
+
+    return jit(_lookup_many), jit(_parcels)
+
+
+def _lookup(which, values, pressure):
+    tab, tw_ax, inv, tt_ax, lnp_ax = moist_adiabat_tables()
+    flat, axis = (inv, tt_ax) if which == "inverse" else (tab, tw_ax)
+    v, p = np.broadcast_arrays(np.asarray(values, dtype=float), np.asarray(pressure, dtype=float))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lnp = np.log(p)
+    out = _compiled()[0](flat, axis, np.ascontiguousarray(v).ravel(), lnp_ax, np.ascontiguousarray(lnp).ravel())
+    return out.reshape(v.shape) if v.ndim else float(out[0])
 
 
 def wet_bulb_potential_temperature_saturated(pressure, temperature):
@@ -173,17 +244,15 @@ def wet_bulb_potential_temperature_saturated(pressure, temperature):
 
     From the tabulated pseudo-adiabats of :func:`moist_lapse_rate_lnp`; valid for 150-345 K, 50-1100 hPa.
     """
-    _, inv = _tables()
-    return _bilinear(inv, _TT, np.asarray(temperature, dtype=float), np.log(np.asarray(pressure, dtype=float)))
+    return _lookup("inverse", temperature, pressure)
 
 
 def moist_adiabat_temperature_from_theta_w(pressure, theta_w):
     """Temperature (K) on the moist adiabat of wet-bulb potential temperature ``theta_w`` at ``pressure``."""
-    tab, _ = _tables()
-    return _bilinear(tab, _TW, np.asarray(theta_w, dtype=float), np.log(np.asarray(pressure, dtype=float)))
+    return _lookup("table", theta_w, pressure)
 
 
-def adiabatic_lwc_from_bases(pressure, temperature, in_cloud, *, log_pressure=None):
+def adiabatic_lwc_from_bases(pressure, temperature, in_cloud):
     """Adiabatic LWC (kg/m3) and parcel temperature (K) in every cloud layer, each from its own base.
 
     Parameters
@@ -193,8 +262,6 @@ def adiabatic_lwc_from_bases(pressure, temperature, in_cloud, *, log_pressure=No
     in_cloud : array_like of bool (..., level)
         Cloud levels; each run of cloud levels is a layer whose lowest level is its base, where the parcel
         starts saturated at the environmental temperature.
-    log_pressure : array_like (..., level), optional
-        ``ln(pressure)`` if the caller has it already (saves recomputing it).
 
     Returns
     -------
@@ -203,39 +270,14 @@ def adiabatic_lwc_from_bases(pressure, temperature, in_cloud, *, log_pressure=No
 
     Notes
     -----
-    The parcel of each layer follows the moist adiabat through its base, looked up in the tabulated
-    adiabats (no loop over levels or profiles); the total water is the base's saturation mixing ratio.
+    :func:`parcel_in_layer` for every layer of every profile (the function the diagnosis kernel uses).
     """
-    p = np.asarray(pressure, dtype=float)
-    t = np.asarray(temperature, dtype=float)
-    c = np.asarray(in_cloud, dtype=bool)
+    p, t, c = np.broadcast_arrays(np.asarray(pressure, dtype=float), np.asarray(temperature, dtype=float),
+                                  np.asarray(in_cloud, dtype=bool))
     shape = p.shape
-    p2, t2, c2 = p.reshape(-1, shape[-1]), t.reshape(-1, shape[-1]), c.reshape(-1, shape[-1])
-    prev = np.zeros_like(c2)
-    prev[:, 1:] = c2[:, :-1]
-    base = (c2 & ~prev).ravel()
-    idx = np.flatnonzero(c2.ravel())
-    if idx.size == 0:
-        return np.zeros(shape), np.full(shape, np.nan)
-    is_base = base[idx]
-    # Run id of every cloud level (runs are contiguous in flat order); numpy sums bytes into int32 far
-    # faster than booleans into int64.
-    run = np.cumsum(is_base.view(np.uint8), dtype=np.int32 if is_base.size < 2**31 - 1 else np.int64) - 1
-    bidx = idx[is_base]
-    pf, tf = p2.ravel(), t2.ravel()
-    lnp = np.log(pf[idx]) if log_pressure is None else np.asarray(log_pressure, dtype=float).ravel()[idx]
-    pb, tb = pf[bidx], tf[bidx]
-    _, inv = _tables()
-    tw_base = _bilinear(inv, _TT, tb, lnp[is_base])  # wet_bulb_potential_temperature_saturated
-    rt_base = saturation_mixing_ratio_bolton(pb, tb)
-    pc = pf[idx]
-    tab, _ = _tables()
-    tp_c = _bilinear(tab, _TW, tw_base[run], lnp)  # moist_adiabat_temperature_from_theta_w
-    # At the base itself the parcel is the environment (removes the table's small round trip).
-    tp_c = np.where(is_base, tf[idx], tp_c)
-    lwc_c = adiabatic_liquid_water_content(pc, tp_c, rt_base[run])
-    tp = np.full(p2.size, np.nan)
-    lwc = np.zeros(p2.size)
-    tp[idx] = tp_c
-    lwc[idx] = lwc_c
+    n = shape[-1]
+    tp = np.full((int(np.prod(shape[:-1])), n), np.nan)
+    lwc = np.zeros(tp.shape)
+    _compiled()[1](np.ascontiguousarray(p).reshape(-1, n), np.ascontiguousarray(t).reshape(-1, n),
+                   np.ascontiguousarray(c).reshape(-1, n), moist_adiabat_tables(), tp, lwc)
     return lwc.reshape(shape), tp.reshape(shape)

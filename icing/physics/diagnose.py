@@ -1,9 +1,13 @@
-"""Level-wise icing diagnostics of any number of profiles at once.
+"""Level-wise icing diagnostics of any number of profiles at once: one chain, compiled per column.
 
-:func:`diagnose_arrays` is the numpy core on plain SI arrays with a trailing level axis; :func:`diagnose`
-wraps it for canonical profile Datasets (``xr.apply_ufunc`` with ``level`` as the core dimension, so dask-
-backed inputs stay lazy). The physics lives in :mod:`icing.physics.layers`, :mod:`icing.physics.adiabat` and
-:mod:`icing.physics.microphysics`; this module only chains it.
+:func:`diagnose_column` chains the physics of one column: humidity (:mod:`icing.physics.thermo`), cloud
+(:mod:`icing.physics.cloud`), the parcel and its adiabatic liquid water (:mod:`icing.physics.adiabat`), liquid
+fraction and droplet size (:mod:`icing.physics.microphysics`), precipitation and large drops
+(:mod:`icing.physics.precipitation`). numba compiles it, with every function it calls, into one pass per
+column (:mod:`icing.physics.jit`); the same functions run uncompiled from Python. :func:`diagnose_arrays` runs
+it on plain SI arrays with a trailing level axis (blocks of profiles in parallel threads);
+:func:`diagnose` wraps that for canonical profile Datasets (``xr.apply_ufunc`` with ``level`` as the core
+dimension, so dask-backed inputs stay lazy).
 """
 
 from __future__ import annotations
@@ -18,11 +22,13 @@ import xarray as xr
 
 from icing import CAUTION
 from icing.errors import ConfigError
-from icing.physics import adiabat, envelopes, layers, microphysics, thermo
+from icing.physics import adiabat, cloud, envelopes, microphysics, precipitation, thermo
+from icing.physics.jit import jitable
 from icing.units import dataarray_to_unit, ureg
 
-__all__ = ["diagnose_arrays", "diagnose", "DEFAULT_COLD_LIMIT_C", "LEVEL_OUTPUTS", "PROFILE_OUTPUTS",
-           "THREADS_ENV", "ENGINE_ENV", "FUSED_MIN_POINTS"]
+__all__ = ["diagnose_arrays", "diagnose", "diagnose_column", "compile_kernels", "DEFAULT_COLD_LIMIT_C",
+           "LEVEL_OUTPUTS", "FIELD_ATTRS",
+           "PROFILE_OUTPUTS", "THREADS_ENV", "MODEL_CLOUD_MIN"]
 
 DEFAULT_COLD_LIMIT_C = -40.0
 LEVEL_OUTPUTS = ("rh_water", "rh_ice", "in_cloud", "supercooled", "liquid_fraction", "lwc", "mvd", "large_drop",
@@ -31,9 +37,7 @@ PROFILE_OUTPUTS = ("precipitation_type", "freezing_level_count")
 _BLOCK = 2048  # profiles per block
 _WORKERS = min(4, os.cpu_count() or 1)  # block threads of a call from the main thread (see _thread_count)
 THREADS_ENV = "ICING_DIAGNOSE_THREADS"
-ENGINE_ENV = "ICING_ENGINE"
-FUSED_MIN_POINTS = 20_000  # level-points: below this the numba kernels' first load costs more than they save
-_MODEL_CLOUD_MIN = 1e-5  # kg/m3 (0.01 g/m3): model cloud liquid above this is cloud (common practice)
+MODEL_CLOUD_MIN = 1e-5  # kg/m3 (0.01 g/m3): model cloud liquid above this is cloud (common practice)
 
 
 def _fill_gaps(p, v):
@@ -51,29 +55,6 @@ def _fill_gaps(p, v):
     return out
 
 
-def _cap_stratiform(lwc, kind, t, model, airmass, n_drop):
-    """Hold supercooled stratiform LWC (g/m3) to the 14 CFR Part 25 Appendix C continuous maximum.
-
-    Adiabatic ascent from the base of a deep layer cloud gives 1-2 g/m3 or more near its top, while the
-    measured extremes of layer-cloud icing on which the continuous-maximum envelope rests (NACA TN-1855 and
-    the studies behind Appendix C) stay below about 0.8 g/m3; deep layer cloud loses water to entrainment,
-    precipitation and ice. The cap is our design rule, not a published parameterisation. The envelope falls
-    with MVD and the MVD grows with LWC, so the cap is the self-consistent value L* = envelope(MVD(L*), T)
-    (temperature held to 0..-30 degC, MVD to 15..40 um), which depends only on the temperature and the
-    droplet concentration: the capped LWC still grows with the adiabatic LWC. It is tabulated once per
-    droplet concentration every 0.005 K by bisection (:func:`_cap_table`) and interpolated (within 1e-5 g/m3
-    of the bisection at the level's own temperature). Convective cloud is not capped.
-    """
-    strat = (kind == 1) & ~model & (lwc > 0) & (t < thermo.T0)
-    if not strat.any():
-        return lwc
-    table_t, table_cap = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop))
-    cap = np.interp(np.clip(t[strat] - thermo.T0, -30.0, 0.0), table_t, table_cap)
-    out = lwc.copy()
-    out[strat] = np.minimum(lwc[strat], cap)
-    return out
-
-
 def _cap_by_bisection(tc, airmass, n_drop):
     """The self-consistent cap L* (g/m3) at temperatures ``tc`` (degC, -30..0) by 30 halvings of 0..1 g/m3."""
     lo = np.zeros(tc.shape)
@@ -88,74 +69,21 @@ def _cap_by_bisection(tc, airmass, n_drop):
 
 @functools.lru_cache(maxsize=16)
 def _cap_table(airmass, n_drop):
-    """(temperature degC, cap g/m3) every 0.005 K from -30 to 0 degC for one droplet concentration."""
+    """(temperature degC, cap g/m3) every 0.005 K from -30 to 0 degC for one droplet concentration: the cap
+    that holds supercooled stratiform LWC to the 14 CFR Part 25 Appendix C continuous maximum.
+
+    Adiabatic ascent from the base of a deep layer cloud gives 1-2 g/m3 or more near its top, while the
+    measured extremes of layer-cloud icing on which the continuous-maximum envelope rests (NACA TN-1855 and
+    the studies behind Appendix C) stay below about 0.8 g/m3; deep layer cloud loses water to entrainment,
+    precipitation and ice. The cap is our design rule, not a published parameterisation. The envelope falls
+    with MVD and the MVD grows with LWC, so the cap is the self-consistent value L* = envelope(MVD(L*), T)
+    (temperature held to 0..-30 degC, MVD to 15..40 um), which depends only on the temperature and the
+    droplet concentration: the capped LWC still grows with the adiabatic LWC. It is tabulated once per
+    droplet concentration every 0.005 K by bisection (:func:`_cap_table`) and interpolated (within 1e-5 g/m3
+    of the bisection at the level's own temperature). Convective cloud is not capped.
+    """
     tc = np.linspace(-30.0, 0.0, 6001)
     return tc, _cap_by_bisection(tc, airmass, n_drop)
-
-
-def _cap_stratiform_reference(lwc, kind, t, model, airmass, n_drop):
-    """The cap of :func:`_cap_stratiform` by the bisection at every supercooled stratiform level's own
-    temperature; kept to test the tabulated version against."""
-    strat = (kind == 1) & ~model & (lwc > 0) & (t < thermo.T0)
-    if not strat.any():
-        return lwc
-    out = lwc.copy()
-    out[strat] = np.minimum(lwc[strat], _cap_by_bisection(np.clip(t[strat] - thermo.T0, -30.0, 0.0), airmass,
-                                                          n_drop))
-    return out
-
-
-def _relative_humidities(t, lnt, td):
-    """RH over water and over ice (percent) from temperature (K, with its log ``lnt``) and dewpoint (K).
-
-    The same as 100 x :func:`icing.physics.thermo.relative_humidity_water` and
-    :func:`icing.physics.thermo.relative_humidity_ice`
-    (Murphy and Koop 2005, eqs. 10 and 7: e_w(Td) / e_w(T) and e_w(Td) / e_i(T)), to rounding, with each
-    logarithm taken once and the ratios formed in logs (two exponentials instead of three).
-    """
-    rows = max(1, 8192 // max(t.shape[-1], 1))  # slices of about 8192 levels stay in cache: 1.5x faster
-    if t.ndim == 2 and t.shape[0] > 2 * rows:
-        rh_w, rh_i = np.empty(t.shape), np.empty(t.shape)
-        for i in range(0, t.shape[0], rows):
-            sl = slice(i, i + rows)
-            rh_w[sl], rh_i[sl] = _relative_humidities(t[sl], lnt[sl], td[sl])
-        return rh_w, rh_i
-    ln_e = _ln_esw(td, np.log(td))
-    ln_ew = _ln_esw(t, lnt)
-    ln_ei = 3.53068 * lnt
-    ln_ei += 9.550426
-    ln_ei -= 5723.265 / t
-    ln_ei -= 0.00728332 * t
-    rh_w = np.subtract(ln_e, ln_ew, out=ln_ew)
-    np.exp(rh_w, out=rh_w)
-    rh_w *= 100.0
-    rh_i = np.subtract(ln_e, ln_ei, out=ln_ei)
-    np.exp(rh_i, out=rh_i)
-    rh_i *= 100.0
-    return rh_w, rh_i
-
-
-def _ln_esw(t, lnt):
-    """ln e_w (Pa) of Murphy and Koop (2005), eq. (10), as :func:`icing.physics.thermo.saturation_vapor_pressure_water`,
-    in place where it can; tanh(u) taken as 1 - 2 / (exp(2u) + 1), one exponential (numpy's tanh is about
-    three times slower)."""
-    inv = 1.0 / t
-    th = np.multiply(t - 218.8, 0.083)
-    np.exp(th, out=th)
-    th += 1.0
-    np.divide(-2.0, th, out=th)
-    th += 1.0
-    poly = -9.44523 * lnt
-    poly += 53.878
-    poly -= 1331.22 * inv
-    poly += 0.014025 * t
-    th *= poly
-    out = -4.210 * lnt
-    out += 54.842763
-    out -= 6763.22 * inv
-    out += 0.000367 * t
-    out += th
-    return out
 
 
 def _thread_count(threads):
@@ -181,20 +109,205 @@ def _thread_count(threads):
 
 
 def _check_params(params):
-    unknown = set(params) - set(layers.CLOUD_DEFAULTS)
+    unknown = set(params) - set(cloud.CLOUD_DEFAULTS)
     if unknown:
-        raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(layers.CLOUD_DEFAULTS)}")
-    prm = {**layers.CLOUD_DEFAULTS, **params}
-    for name in ("min_rh", "max_rh", "inter_rh"):  # one value per height of layers.ZHANG_HEIGHTS_M
+        raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(cloud.CLOUD_DEFAULTS)}")
+    prm = {**cloud.CLOUD_DEFAULTS, **params}
+    for name in ("min_rh", "max_rh", "inter_rh"):  # one value per height of cloud.ZHANG_HEIGHTS_M
         values = np.asarray(prm[name], dtype=float) if np.ndim(prm[name]) == 1 else None
-        if values is None or values.size != len(layers.ZHANG_HEIGHTS_M) or not np.isfinite(values).all():
-            raise ConfigError(f"{name} must be {len(layers.ZHANG_HEIGHTS_M)} finite RH values (percent), one per "
-                              f"height {layers.ZHANG_HEIGHTS_M} m; got {prm[name]!r}")
+        if values is None or values.size != len(cloud.ZHANG_HEIGHTS_M) or not np.isfinite(values).all():
+            raise ConfigError(f"{name} must be {len(cloud.ZHANG_HEIGHTS_M)} finite RH values (percent), one per "
+                              f"height {cloud.ZHANG_HEIGHTS_M} m; got {prm[name]!r}")
     return prm
 
 
+
+# The scalar settings of diagnose_column, in the order of its ``settings`` array (cloud.CLOUD_SETTINGS first).
+COLUMN_SETTINGS = cloud.CLOUD_SETTINGS + ("convective_excess_k", "stratiform_factor", "convective_factor",
+                                          "drizzle_top_temperature", "drizzle_min_thickness_m", "melting_area_aloft",
+                                          "liquid_rh")
+
+
+@jitable
+def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh_table, max_rh_table,
+                    inter_rh_table, adiabats, cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f, out_b, out_i,
+                    scratch_f, scratch_b, scratch_i):
+    """The icing diagnostics of one column (levels with pressure decreasing; gaps in t, td, z filled).
+
+    Parameters
+    ----------
+    p, lnp, t, td, z, cl : ndarray (n,)
+        Pressure (Pa) and its log, temperature and dewpoint (K), height (m), model cloud liquid (kg/m3, used
+        where ``has_cl`` and finite).
+    cold_limit : float
+        Coldest temperature of supercooled liquid (K).
+    settings : ndarray
+        The values of :data:`COLUMN_SETTINGS` (``liquid_rh`` NaN for the cloud threshold itself;
+        sub-adiabatic factors resolved).
+    heights, min_rh_table, max_rh_table, inter_rh_table : ndarray (4,)
+        The cloud thresholds (:mod:`icing.physics.cloud`).
+    adiabats : tuple
+        :func:`icing.physics.adiabat.moist_adiabat_tables`.
+    cap_t, cap_v, use_cap :
+        The stratiform LWC cap table (temperature degC, cap g/m3) and whether it applies.
+    n_drop, mvd_ratio : float
+        Droplet number (per m3) and the ratio of median to mean volume diameter of the spectrum.
+    out_f : ndarray (5, n)
+        Output rows: RH over water, RH over ice (percent), liquid fraction, LWC (g/m3), MVD (um).
+    out_b : ndarray of bool (3, n)
+        Output rows: in cloud, supercooled, warm layer aloft.
+    out_i : ndarray of int8 (2, n)
+        Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective).
+    scratch_f, scratch_b, scratch_i : ndarray (9, n), (6, n), (6, n)
+        Work space (float, bool, int64).
+
+    Returns
+    -------
+    (int, int)
+        Precipitation type code (:data:`icing.physics.precipitation.PRECIPITATION_TYPES`) and the number of
+        0 degC crossings.
+
+    Notes
+    -----
+    Cloud where RH (over ice below 0 degC) meets the height-dependent thresholds of Zhang et al. (2010);
+    supercooled where in cloud, between ``cold_limit`` and 0 degC, with RH over water at least the cloud
+    threshold (liquid possible) or model cloud liquid; cloud kind convective where the parcel from the layer
+    base gets warmer than the air by more than ``convective_excess_k``; LWC = adiabatic LWC from each layer base
+    x sub-adiabatic factor by kind x liquid fraction (Hu et al. 2010) at supercooled and warm cloud levels, or
+    the model's cloud liquid; MVD from LWC and the droplet number; precipitation type by Bourgouin (2000);
+    large drops: freezing rain where melted precipitation falls into sub-freezing air, freezing drizzle under
+    warm-topped supercooled cloud.
+    """
+    n = t.size
+    conv_excess, f_strat, f_conv = settings[7], settings[8], settings[9]
+    dz_top_t, dz_thick, melt_aloft, liquid_rh = settings[10], settings[11], settings[12], settings[13]
+    rh_w, rh_i, lf_out, lwc_out, mvd_out = out_f[0], out_f[1], out_f[2], out_f[3], out_f[4]
+    in_cloud, supercooled, warm_aloft = out_b[0], out_b[1], out_b[2]
+    large, kind = out_i[0], out_i[1]
+    lnt, rh_c, z_agl, min_rh, zb, parcel, lwc_ad, area = (scratch_f[0], scratch_f[1], scratch_f[2], scratch_f[3],
+                                                          scratch_f[4], scratch_f[5], scratch_f[6], scratch_f[7])
+    layer_area = scratch_f[8]
+    model, drizzle_src, layer_rain = scratch_b[2], scratch_b[3], scratch_b[4]
+    starts, ends = scratch_i[2], scratch_i[3]
+    layer_start, layer_of = scratch_i[4], scratch_i[5]
+    # humidity (Murphy and Koop 2005) and the height above the lowest level
+    z0 = np.nan
+    for k in range(n):
+        if np.isfinite(z[k]):
+            z0 = z[k]
+            break
+    if not np.isfinite(z0):
+        z0 = z[0]
+    humidity_complete = True
+    for k in range(n):
+        tk = t[k]
+        tdk = td[k] if td[k] <= tk else (tk if td[k] == td[k] else td[k])  # dewpoint at most the temperature
+        lt = np.log(tk)
+        lnt[k] = lt
+        ln_e = thermo.ln_saturation_vapor_pressure_water(tdk, np.log(tdk))
+        rw = np.exp(ln_e - thermo.ln_saturation_vapor_pressure_water(tk, lt)) * 100.0
+        ri = np.exp(ln_e - thermo.ln_saturation_vapor_pressure_ice(tk, lt)) * 100.0
+        rh_w[k] = rw
+        rh_i[k] = ri
+        rh_c[k] = ri if tk < thermo.T0 else rw
+        z_agl[k] = z[k] - z0
+        min_rh[k] = cloud.interp(z_agl[k], heights, min_rh_table)
+        if np.isfinite(tk) and not np.isfinite(rw):
+            humidity_complete = False
+    cloud.cloud_in_column(z_agl, rh_c, min_rh, heights, max_rh_table, inter_rh_table, settings, in_cloud, zb,
+                          scratch_b, scratch_i)
+    # model cloud liquid, and cloud only where a temperature is known
+    for k in range(n):
+        model[k] = has_cl and np.isfinite(cl[k])
+        if model[k] and cl[k] >= MODEL_CLOUD_MIN:
+            in_cloud[k] = True
+        in_cloud[k] = in_cloud[k] and np.isfinite(t[k])
+        kind[k] = 0
+    # the parcel of each cloud layer from its base; cloud kind from its excess over the air
+    nr = cloud.runs(in_cloud, starts, ends)
+    for k in range(n):
+        parcel[k] = np.nan
+        lwc_ad[k] = 0.0
+    for r in range(nr):
+        excess = adiabat.parcel_in_layer(p, lnp, t, starts[r], ends[r], adiabats, parcel, lwc_ad)
+        for k in range(starts[r], ends[r] + 1):
+            kind[k] = 2 if excess > conv_excess else 1
+    # supercooled levels, liquid fraction, LWC, the stratiform cap, MVD
+    for k in range(n):
+        tk = t[k]
+        threshold = min_rh[k] if liquid_rh != liquid_rh else liquid_rh
+        liquid_ok = cl[k] >= MODEL_CLOUD_MIN if model[k] else rh_w[k] >= threshold
+        sc = in_cloud[k] and tk <= thermo.T0 and tk >= cold_limit and liquid_ok
+        supercooled[k] = sc
+        lf = microphysics.liquid_fraction(tk, cold_limit)
+        lf_out[k] = lf
+        lwc = 0.0
+        if sc or (in_cloud[k] and tk > thermo.T0):
+            lwc = microphysics.cloud_kind_factor(kind[k], f_strat, f_conv) * lwc_ad[k] * lf * 1000.0
+        if use_cap and kind[k] == 1 and (not model[k]) and lwc > 0 and tk < thermo.T0:
+            cap = cloud.interp(min(max(tk - thermo.T0, -30.0), 0.0), cap_t, cap_v)
+            lwc = min(lwc, cap)
+        if model[k]:
+            lwc = cl[k] * 1000.0 if in_cloud[k] else 0.0
+        if not np.isfinite(tk):
+            lwc = np.nan
+        lwc_out[k] = lwc
+        mvd_out[k] = microphysics.mean_volume_diameter(lwc / 1000.0, n_drop) * mvd_ratio * 1e6 if lwc > 0 else np.nan
+    # precipitation: its source, the type at the ground, large drops
+    src_level, src_phase, any_drizzle = precipitation.precipitation_source(
+        z_agl, zb, t, starts, ends, nr, settings[2], dz_top_t, dz_thick, drizzle_src)
+    rain = scratch_b[5]
+    ptype = precipitation.precipitation_type_in_column(lnp, lnt, t, src_level, src_phase, humidity_complete,
+                                                       melt_aloft, rain, area, layer_start, layer_of, layer_area,
+                                                       layer_rain)
+    if any_drizzle:
+        precipitation.drizzle_below_in_column(t, drizzle_src, in_cloud, drizzle_src)
+    for k in range(n):
+        large[k] = 2 if rain[k] else (1 if (any_drizzle and drizzle_src[k]) else 0)
+    crossings = precipitation.warm_layer_aloft_in_column(t, warm_aloft)
+    return ptype, crossings
+
+
+def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh, max_rh, inter_rh, adiabats,
+                   cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
+    """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
+    when unused); outputs (5, P, n), (3, P, n), (2, P, n), (P,), (P,)."""
+    npro, n = t.shape
+    scratch_f = np.empty((9, n))
+    scratch_b = np.empty((6, n), np.bool_)
+    scratch_i = np.empty((6, n), np.int64)
+    lnp = np.empty(n)
+    shared = p.shape[0] == 1
+    if shared:
+        for k in range(n):
+            lnp[k] = np.log(p[0, k])
+    for i in range(npro):
+        ip = 0 if shared else i
+        if not shared:
+            for k in range(n):
+                lnp[k] = np.log(p[i, k])
+        ptype[i], crossings[i] = diagnose_column(
+            p[ip], lnp, t[i], td[i], z[i], cl[i if has_cl else 0], has_cl, cold_limit, settings, heights, min_rh,
+            max_rh, inter_rh, adiabats, cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f[:, i], out_b[:, i],
+            out_i[:, i], scratch_f, scratch_b, scratch_i)
+
+
+@functools.lru_cache(maxsize=1)
+def _compiled_rows():
+    from icing.physics.jit import jit
+
+    return jit(_diagnose_rows)
+
+
+def compile_kernels():
+    """Compile (or load from numba's cache) the diagnosis kernel now, on a tiny input: its first use on a
+    machine compiles it once (some seconds); later processes load it from the cache."""
+    diagnose_arrays(np.array([90000.0, 80000.0]), np.array([270.0, 265.0]), np.array([269.0, 264.0]),
+                    np.array([1000.0, 2000.0]), threads=1)
+
+
 def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, *, cold_limit=233.15,
-                    airmass="continental", threads=None, engine=None, **thresholds):
+                    airmass="continental", threads=None, **thresholds):
     """Icing diagnostics level by level for profiles of shape (..., level), plain SI in and out.
 
     Parameters
@@ -210,17 +323,12 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     airmass : {"continental", "marine"} or float
         Droplet number concentration for the droplet size (a number is per cm3).
     threads : int, optional
-        Threads working on blocks of profiles at once (numpy releases the GIL in its loops). By default the
+        Threads working on blocks of profiles at once (the compiled kernel releases the GIL). By default the
         environment variable ``ICING_DIAGNOSE_THREADS`` if set, else 1 when called from a thread other than
         the main one (a dask or distributed worker, whose own pool already fills the cores), else up to 4
         (the CPU count). The results do not depend on it.
-    engine : {"auto", "numpy", "numba"}, optional
-        ``"numpy"``: the whole-array numpy chain; ``"numba"``: the same chain fused into one compiled pass per
-        column (:mod:`icing.physics.fused`, needs numba); ``"auto"`` (default, or the ``ICING_ENGINE`` environment
-        variable): numba for inputs of at least ``FUSED_MIN_POINTS`` level-points when it is installed. Both
-        give the same results (flags equal, numbers to rounding; ``tests/test_fused.py``).
     **thresholds
-        Any of :data:`icing.physics.layers.CLOUD_DEFAULTS`.
+        Any of :data:`icing.physics.cloud.CLOUD_DEFAULTS`.
 
     Returns
     -------
@@ -231,49 +339,12 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
         1 stratiform, 2 convective) and ``valid`` (bool: temperature and humidity were measured there; the
         other fields at invalid levels are interpolated from neighbours, or NaN/False beyond the data, and must
         never be read as cloud-free). Per profile (leading shape): ``precipitation_type`` (int8, codes of
-        :data:`icing.physics.layers.PRECIPITATION_TYPES`) and ``freezing_level_count`` (int).
+        :data:`icing.physics.precipitation.PRECIPITATION_TYPES`) and ``freezing_level_count`` (int).
 
     Notes
     -----
-    The chain: RH over water and ice (Murphy and Koop 2005); cloud levels by Zhang et al. (2010); supercooled
-    = in cloud, between ``cold_limit`` and 0 degC, with RH over water at least the cloud threshold (liquid
-    possible); cloud kind convective where the moist adiabat from the layer base gets warmer than the
-    environment anywhere in the layer (environmental lapse rate steeper than moist adiabatic); LWC =
-    adiabatic LWC from each layer base x sub-adiabatic factor by kind x liquid fraction (Hu et al. 2010) at
-    supercooled and warm cloud levels;
-    MVD from LWC and the airmass's droplet number; precipitation type by Bourgouin (2000); large drops:
-    freezing rain where melted precipitation falls into sub-freezing air, freezing drizzle under warm-topped
-    supercooled cloud.
+    :func:`diagnose_column` on every profile (see there for the physics and its sources).
     """
-    return _chain(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit, airmass=airmass,
-                  threads=threads, engine=engine, summaries=False, thresholds=thresholds)[0]
-
-
-def _engine(engine, npoints):
-    """Whether the fused numba engine runs: ``engine`` (or ``ICING_ENGINE``) and the input size decide."""
-    from icing.physics import fused
-
-    if engine is None:
-        engine = os.environ.get(ENGINE_ENV, "").strip().lower() or "auto"
-    if engine not in fused.ENGINES:
-        raise ConfigError(f"engine {engine!r} is not one of {', '.join(fused.ENGINES)}")
-    if engine == "numpy":
-        return False
-    if engine == "numba":
-        if not fused.available():
-            raise ConfigError("engine 'numba' needs the numba package (pip install numba, or 'icing[scale]')")
-        return True
-    return npoints >= FUSED_MIN_POINTS and fused.available()
-
-
-_SUMMARY_KEYS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", "supercooled_top_m")
-
-
-def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit, airmass, threads, engine,
-           summaries, thresholds):
-    """:func:`diagnose_arrays`; with ``summaries`` and the fused engine on pressure-sorted input, the column
-    summaries of :func:`icing.grid.column_summaries` too (computed in the same pass). Returns (results,
-    whether the fused engine ran)."""
     prm = _check_params(thresholds)
     workers = _thread_count(threads)
     cold_limit = microphysics.check_cold_limit(cold_limit)
@@ -294,165 +365,65 @@ def _chain(pressure, temperature, dewpoint, height, cloud_liquid, *, cold_limit,
         order = np.argsort(np.broadcast_to(key, flat[0].shape), axis=-1, kind="stable")
         flat = [np.take_along_axis(a, order, axis=-1) for a in flat]
     p, t_raw, td_raw, z_raw = flat[:4]
-    cl = flat[4] if has_model else None
-    use_fused = _engine(engine, p.shape[0] * n)
-    t = _fill_gaps(p, t_raw)
-    td = _fill_gaps(p, td_raw)
-    z = _fill_gaps(p, z_raw)
-    if not use_fused:  # (the fused kernel does these two in its own pass)
-        valid = np.isfinite(p) & np.isfinite(t_raw) & np.isfinite(td_raw)
-        td = np.minimum(td, t)
-    with_summaries = bool(summaries and use_fused and sorted_already)
-    # Blocks of profiles small enough to stay in cache (a loop over blocks, never over profiles); numpy and the
-    # compiled kernel release the GIL, so blocks run in parallel threads.
-    starts = range(0, max(p.shape[0], 1), _BLOCK)
-    if use_fused:
-        from icing.physics import fused
+    cl = flat[4] if has_model else np.full((1, n), np.nan)
+    p = p[:1] if p.shape[0] > 1 and p.strides[0] == 0 else p  # one shared pressure row (a model grid)
+    valid = np.isfinite(flat[0]) & np.isfinite(t_raw) & np.isfinite(td_raw)
+    t, td, z = _fill_gaps(flat[0], t_raw), _fill_gaps(flat[0], td_raw), _fill_gaps(flat[0], z_raw)
+    npro = t.shape[0]
+    settings = np.array([prm[k] for k in cloud.CLOUD_SETTINGS] + [
+        prm["convective_excess_k"],
+        microphysics.SUBADIABATIC_FACTOR["stratiform"] if prm["stratiform_factor"] is None
+        else prm["stratiform_factor"],
+        microphysics.SUBADIABATIC_FACTOR["convective"] if prm["convective_factor"] is None
+        else prm["convective_factor"],
+        prm["drizzle_top_temperature"], prm["drizzle_min_thickness_m"], prm["melting_area_aloft"],
+        np.nan if prm["liquid_rh"] is None else prm["liquid_rh"]], dtype=float)
+    cap_t, cap_v = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop)) \
+        if prm["stratiform_cap"] else (np.zeros(2), np.zeros(2))
+    tables = (np.asarray(cloud.ZHANG_HEIGHTS_M, dtype=float), np.asarray(prm["min_rh"], dtype=float),
+              np.asarray(prm["max_rh"], dtype=float), np.asarray(prm["inter_rh"], dtype=float))
+    out_f = np.empty((5, npro, n))
+    out_b = np.empty((3, npro, n), bool)
+    out_i = np.empty((2, npro, n), np.int8)
+    ptype = np.empty(npro, np.int8)
+    crossings = np.empty(npro, np.int64)
+    kernel = _compiled_rows()
+    f64 = np.ascontiguousarray
 
-        cap = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop)) \
-            if prm["stratiform_cap"] else None
-        out = fused.empty_outputs(p.shape[0], n, with_summaries)
+    def block(i):  # writes into its rows of the outputs; blocks of profiles stay in cache
+        sl = slice(i, i + _BLOCK)
+        kernel(f64(p if p.shape[0] == 1 else p[sl]), f64(t[sl]), f64(td[sl]), f64(z[sl]),
+               f64(cl if not has_model else cl[sl]), has_model, float(cold_limit), settings, *tables,
+               adiabat.moist_adiabat_tables(), cap_t, cap_v, bool(prm["stratiform_cap"]), float(n_drop),
+               microphysics.mvd_to_mean_volume_ratio(airmass), out_f[:, sl], out_b[:, sl], out_i[:, sl],
+               ptype[sl], crossings[sl])
 
-        def fused_block(i):  # writes into its rows of ``out``
-            sl = slice(i, i + _BLOCK)
-            fused.diagnose_block(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], td_raw[sl],
-                                 t_raw[sl], z_raw[sl], cold_limit, n_drop, airmass, prm, cap,
-                                 summaries=with_summaries, out={k: v[sl] for k, v in out.items()})
-
-        if workers > 1 and len(starts) > 1:
-            with ThreadPoolExecutor(min(workers, len(starts))) as pool:
-                list(pool.map(fused_block, starts))
-        else:
-            for i in starts:
-                fused_block(i)
+    starts = range(0, max(npro, 1), _BLOCK)
+    if workers > 1 and len(starts) > 1:
+        with ThreadPoolExecutor(min(workers, len(starts))) as pool:
+            list(pool.map(block, starts))
     else:
-        def block(i):
-            sl = slice(i, i + _BLOCK)
-            return _diagnose_sorted(p[sl], t[sl], td[sl], z[sl], None if cl is None else cl[sl], valid[sl],
-                                    cold_limit, n_drop, airmass, prm)
-
-        if len(starts) == 1:
-            out = block(0)
-        else:
-            first = block(0)
-            out = {k: np.empty((p.shape[0],) + v.shape[1:], v.dtype) for k, v in first.items()}
-
-            def store(i, part):
-                for k, v in part.items():
-                    out[k][i:i + _BLOCK] = v
-
-            store(0, first)
-            if workers > 1:
-                with ThreadPoolExecutor(workers) as pool:
-                    for i, part in zip(starts[1:], pool.map(block, starts[1:]), strict=True):
-                        store(i, part)
-            else:
-                for i in starts[1:]:
-                    store(i, block(i))
+        for i in starts:
+            block(i)
+    levels = {"rh_water": out_f[0], "rh_ice": out_f[1], "in_cloud": out_b[0], "supercooled": out_b[1],
+              "liquid_fraction": out_f[2], "lwc": out_f[3], "mvd": out_f[4], "large_drop": out_i[0],
+              "warm_layer_aloft": out_b[2], "cloud_kind": out_i[1], "valid": valid}
     result = {}
-    for name, arr in out.items():
-        if name in _SUMMARY_KEYS:
-            result[name] = arr.reshape(lead + arr.shape[1:])
-        elif arr.ndim == 2:
-            if not sorted_already:
-                back = np.empty_like(arr)
-                np.put_along_axis(back, order, arr, axis=-1)
-                arr = back
-            result[name] = arr.reshape(lead + (n,))
-        else:
-            result[name] = arr.reshape(lead)
-    return result, use_fused
-
-
-def _diagnose_sorted(p, t, td, z, cl, valid, cold_limit, n_drop, airmass, prm):
-    npro, n = p.shape
-    have_t = np.isfinite(t)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        lnt = np.log(t)
-        # One ln p for the block; pressure broadcast along the profiles (a model grid) needs only one row.
-        lnp = np.broadcast_to(np.log(p[:1]), p.shape) if p.shape[0] > 1 and p.strides[0] == 0 else np.log(p)
-        rh_w, rh_i = _relative_humidities(t, lnt, td)
-    rh_cloud = np.where(t < thermo.T0, rh_i, rh_w)
-    z0 = np.take_along_axis(z, np.argmax(np.isfinite(z), axis=-1)[:, None], axis=-1)
-    z_agl = z - z0
-    min_rh = layers.zhang_thresholds(z_agl, prm["min_rh"])
-    in_cloud, zb = layers.cloud_mask(z_agl, rh_cloud, min_rh_values=min_rh, **{k: prm[k] for k in (
-        "min_rh", "max_rh", "inter_rh", "min_moist_base_m", "min_moist_thickness_m", "min_cloud_base_m",
-        "merge_gap_m", "min_thickness_low_m", "min_thickness_high_m", "low_cloud_limit_m")})
-    model = np.zeros_like(in_cloud) if cl is None else np.isfinite(cl)
-    if cl is not None:
-        in_cloud |= model & (cl >= _MODEL_CLOUD_MIN)
-    in_cloud &= have_t
-    lwc_ad, tp = adiabat.adiabatic_lwc_from_bases(p, np.where(have_t, t, 273.15), in_cloud, log_pressure=lnp)
-    # Cloud kind per layer: convective where the parcel rising from the layer base along the moist adiabat
-    # gets warmer than the environment somewhere in the layer (lapse rate steeper than moist adiabatic).
-    s, e, rid = layers._runs(in_cloud)
-    excess = layers._reduce_runs(np.fmax, tp - t, s, e, -np.inf)
-    conv = layers._spread(excess > prm["convective_excess_k"], rid, False)
-    kind = in_cloud.astype(np.int8)  # 0 none, 1 stratiform, 2 convective (int8 sums: numpy's int64 where is slow)
-    kind += in_cloud & conv
-    liquid_rh = min_rh if prm["liquid_rh"] is None else prm["liquid_rh"]
-    with np.errstate(invalid="ignore"):
-        liquid_ok = np.where(model, (cl if cl is not None else 0.0) >= _MODEL_CLOUD_MIN, rh_w >= liquid_rh)
-        cold_enough = (t <= thermo.T0) & (t >= cold_limit)
-    supercooled = in_cloud & cold_enough & liquid_ok
-    warm_cloud = in_cloud & (t > thermo.T0)
-    lf = microphysics.liquid_fraction(t, cold_limit)
-    factor = microphysics.subadiabatic_factor(kind, prm["stratiform_factor"], prm["convective_factor"])
-    lwc = np.where(supercooled | warm_cloud, factor * lwc_ad * lf, 0.0) * 1000.0
-    if prm["stratiform_cap"]:
-        lwc = _cap_stratiform(lwc, kind, t, model, airmass, n_drop)
-    if cl is not None:
-        lwc = np.where(model, np.where(in_cloud, cl * 1000.0, 0.0), lwc)
-    lwc = np.where(have_t, lwc, np.nan)
-    mvd = np.full(lwc.shape, np.nan)
-    wet = lwc > 0
-    mvd[wet] = microphysics.median_volume_diameter(lwc[wet] / 1000.0, airmass, number_concentration=n_drop) * 1e6
-    # Per cloud layer: thickness and the temperature at the interpolated top, for the drizzle rule and the
-    # precipitation source (the highest cloud top that can precipitate).
-    src_level = np.full(npro, -1)
-    src_phase = np.zeros(npro, dtype=np.int64)
-    if s.size:
-        base, top = layers._run_bounds(z_agl, zb, s, e, n)
-        thick = top - np.maximum(base, prm["min_cloud_base_m"])
-        e1 = np.where(e % n < n - 1, e + 1, e)
-        zf, tf = z_agl.ravel(), t.ravel()
-        with np.errstate(invalid="ignore", divide="ignore"):
-            w = np.where(e1 > e, (top - zf[e]) / (zf[e1] - zf[e]), 0.0)
-            t_top = np.where(np.isfinite(w) & np.isfinite(tf[e1]), tf[e] + w * (tf[e1] - tf[e]), tf[e])
-            cold_top = t_top < prm["drizzle_top_temperature"]
-            deep = thick >= prm["drizzle_min_thickness_m"]
-            drizzle_run = ~cold_top & (t_top <= thermo.T0) & deep
-        can = np.flatnonzero(cold_top | deep)
-        if can.size:
-            rows, cols = np.divmod(e[can], n)
-            np.maximum.at(src_level, rows, cols)  # the highest qualifying top of each profile
-            top_run = np.full(npro, -1)
-            np.maximum.at(top_run, rows, can)
-            has = top_run >= 0
-            ph = np.where(cold_top, layers._SN, np.where(t_top <= thermo.T0, layers._DZ, layers._RA))
-            src_phase[has] = ph[top_run[has]]
-        drizzle_src = layers._spread(drizzle_run, rid, False)
-    else:
-        drizzle_src = np.zeros(p.shape, bool)
-    drizzle = layers.drizzle_below(t, drizzle_src & in_cloud)
-    humidity_complete = ~np.any(have_t & ~np.isfinite(rh_w), axis=-1)
-    ptype, rain = layers.precipitation_type(p, t, src_level, src_phase, humidity_complete,
-                                            prm["melting_area_aloft"], log_pressure=lnp, log_temperature=lnt)
-    large = drizzle.astype(np.int8)
-    large[rain] = 2
-    fl_count = np.count_nonzero(layers.freezing_crossings(t), axis=-1)
-    return {
-        "rh_water": rh_w, "rh_ice": rh_i, "in_cloud": in_cloud, "supercooled": supercooled,
-        "liquid_fraction": lf, "lwc": lwc, "mvd": mvd, "large_drop": large,
-        "warm_layer_aloft": layers.warm_layer_aloft(t), "cloud_kind": kind, "valid": valid,
-        "precipitation_type": ptype, "freezing_level_count": fl_count.astype(np.int64),
-    }
+    for name in LEVEL_OUTPUTS:
+        arr = levels[name]
+        if not sorted_already:
+            back = np.empty_like(arr)
+            np.put_along_axis(back, order, arr, axis=-1)
+            arr = back
+        result[name] = arr.reshape(lead + (n,))
+    result["precipitation_type"] = ptype.reshape(lead)
+    result["freezing_level_count"] = crossings.reshape(lead)
+    return result
 
 
 # --- xarray wrapper ---------------------------------------------------------------------------------
 
-_ATTRS = {
+FIELD_ATTRS = {
     "rh_water": {"units": "percent", "long_name": "relative humidity over liquid water"},
     "rh_ice": {"units": "percent", "long_name": "relative humidity over ice (a formal value above 0 degC)"},
     "in_cloud": {"long_name": "in cloud (RH thresholds of Zhang et al. 2010)"},
@@ -468,9 +439,9 @@ _ATTRS = {
     "valid": {"long_name": "temperature and humidity measured at this level (else interpolated or unknown)"},
     "precipitation_type": {"long_name": "precipitation type at the lowest level if precipitation falls "
                                         "(Bourgouin 2000 energy areas)",
-                           "flag_values": np.array(sorted(layers.PRECIPITATION_TYPES), np.int8),
-                           "flag_meanings": " ".join(layers.PRECIPITATION_TYPES[k]
-                                                     for k in sorted(layers.PRECIPITATION_TYPES))},
+                           "flag_values": np.array(sorted(precipitation.PRECIPITATION_TYPES), np.int8),
+                           "flag_meanings": " ".join(precipitation.PRECIPITATION_TYPES[k]
+                                                     for k in sorted(precipitation.PRECIPITATION_TYPES))},
     "freezing_level_count": {"units": "1", "long_name": "number of 0 degC crossings"},
 }
 _DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool,
@@ -498,7 +469,7 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
     airmass : {"continental", "marine"} or float
         Droplet number for the droplet size (a number is per cm3).
     **thresholds
-        Any of :data:`icing.physics.layers.CLOUD_DEFAULTS`.
+        Any of :data:`icing.physics.cloud.CLOUD_DEFAULTS`.
 
     Returns
     -------
@@ -539,7 +510,7 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
     for name, da in zip(names, results, strict=True):
         dims = [d for d in profiles["temperature"].dims if d != "level"]
         da = da.transpose(*(dims + (["level"] if name in LEVEL_OUTPUTS else [])))
-        ds[name] = da.assign_attrs(_ATTRS[name])
+        ds[name] = da.assign_attrs(FIELD_ATTRS[name])
     ds.attrs = {k: v for k, v in profiles.attrs.items()}
     ds.attrs.update({
         "cold_limit": ck - thermo.T0, "cold_limit_units": "degC",

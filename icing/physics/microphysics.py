@@ -11,10 +11,11 @@ from scipy import special
 
 from icing.errors import ConfigError
 from icing.physics import thermo
+from icing.physics.jit import jitable
 
 __all__ = [
     "HOMOGENEOUS_FREEZING_K", "SUBADIABATIC_FACTOR", "DROPLET_NUMBER", "SPECTRAL_SHAPE_K", "RHO_WATER",
-    "liquid_fraction", "check_cold_limit", "subadiabatic_factor", "droplet_number_concentration",
+    "liquid_fraction", "check_cold_limit", "subadiabatic_factor", "cloud_kind_factor", "droplet_number_concentration",
     "mean_volume_diameter", "mvd_to_mean_volume_ratio", "median_volume_diameter",
 ]
 
@@ -39,6 +40,7 @@ DROPLET_NUMBER = {"marine": 75e6, "continental": 290e6}
 SPECTRAL_SHAPE_K = {"marine": 0.80, "continental": 0.67}
 
 
+@jitable
 def liquid_fraction(temperature, cold_limit=233.15):
     """Fraction of cloud condensate that is liquid, by temperature (0-1).
 
@@ -48,15 +50,14 @@ def liquid_fraction(temperature, cold_limit=233.15):
               + 3.39\\times10^{-4} T^4 + 3.95\\times10^{-6} T^5
 
     with T in degC, fitted for -40 to 0 degC. Above 0 degC the fraction is 1; colder than ``cold_limit``
-    (K) it is 0. NaN temperatures give NaN.
+    (K) it is 0. NaN temperatures give NaN. Pure arithmetic (the two limits select by multiplying with 0/1
+    flags), so this one definition serves floats, numpy arrays and the compiled column kernels.
     """
-    t = np.asarray(temperature, dtype=float)
-    f = np.where(t > thermo.T0, 1.0, np.where(t < cold_limit, 0.0, t))  # NaN stays NaN
-    mid = (t <= thermo.T0) & (t >= cold_limit)
-    tc = np.clip(t[mid] - thermo.T0, -40.0, 0.0)
+    tc = np.minimum(np.maximum(temperature - thermo.T0, -40.0), 0.0)
     poly = 7.6725 + tc * (1.0118 + tc * (0.1422 + tc * (0.0106 + tc * (3.39e-4 + tc * 3.95e-6))))
-    f[mid] = 1.0 / (1.0 + np.exp(-poly))
-    return f if f.ndim else float(f)
+    warm = temperature > thermo.T0
+    cold = temperature < cold_limit
+    return 1.0 / (1.0 + np.exp(-poly)) * (1.0 - warm) * (1.0 - cold) + warm
 
 
 def check_cold_limit(cold_limit: float) -> float:
@@ -81,12 +82,17 @@ def subadiabatic_factor(cloud_kind, stratiform=None, convective=None):
     """Ratio of cloud LWC to adiabatic LWC for cloud kind codes (1 stratiform, 2 convective, else 0).
 
     Defaults are :data:`SUBADIABATIC_FACTOR` (stratiform 0.8 after Wood 2012, convective 0.4 after Warner
-    1955/1970; both from memory).
+    1955/1970; both from memory). :func:`cloud_kind_factor` is the same with both factors given.
     """
     fs = SUBADIABATIC_FACTOR["stratiform"] if stratiform is None else float(stratiform)
     fc = SUBADIABATIC_FACTOR["convective"] if convective is None else float(convective)
-    k = np.asarray(cloud_kind)
-    return np.where(k == 1, fs, np.where(k == 2, fc, 0.0))
+    return cloud_kind_factor(np.asarray(cloud_kind), fs, fc)
+
+
+@jitable
+def cloud_kind_factor(cloud_kind, stratiform, convective):
+    """``stratiform`` for cloud kind 1, ``convective`` for kind 2, 0 otherwise (floats, arrays, compiled)."""
+    return stratiform * (cloud_kind == 1) + convective * (cloud_kind == 2)
 
 
 def droplet_number_concentration(airmass) -> float:
@@ -124,17 +130,16 @@ def mvd_to_mean_volume_ratio(airmass="continental"):
     return float(special.gammaincinv(mu + 4.0, 0.5) / mean_vol)
 
 
+@jitable
 def mean_volume_diameter(lwc, number_concentration):
     """Mean volume diameter (m) from LWC (kg/m3) and droplet number (per m3).
 
     .. math:: \\mathrm{LWC} = \\frac{\\pi}{6} \\rho_w N D_v^3
 
-    (definition of the mean volume diameter; e.g. Rogers and Yau 1989, ch. 5). NaN where LWC is not positive.
+    (definition of the mean volume diameter; e.g. Rogers and Yau 1989, ch. 5). Pure arithmetic: zero LWC
+    gives zero; :func:`median_volume_diameter` gives NaN where there is no liquid.
     """
-    w = np.asarray(lwc, dtype=float)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        d = np.cbrt(6.0 * w / (np.pi * RHO_WATER * number_concentration))
-    return np.where(w > 0.0, d, np.nan)
+    return np.cbrt(6.0 * lwc / (np.pi * RHO_WATER * number_concentration))
 
 
 def median_volume_diameter(lwc, airmass="continental", number_concentration=None):
@@ -145,4 +150,6 @@ def median_volume_diameter(lwc, airmass="continental", number_concentration=None
     Valid for cloud droplets (MVD below about 50 um); NaN where there is no liquid.
     """
     n = droplet_number_concentration(airmass) if number_concentration is None else float(number_concentration)
-    return mean_volume_diameter(lwc, n) * mvd_to_mean_volume_ratio(airmass)
+    w = np.asarray(lwc, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.where(w > 0.0, mean_volume_diameter(w, n) * mvd_to_mean_volume_ratio(airmass), np.nan)

@@ -9,8 +9,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from icing.physics.jit import jitable
+
 __all__ = [
-    "RD", "RV", "EPSILON", "G0", "CP_D", "T0",
+    "RD", "RV", "EPSILON", "G0", "CP_D", "T0", "KAPPA",
+    "ln_saturation_vapor_pressure_water", "ln_saturation_vapor_pressure_ice",
     "saturation_vapor_pressure_water", "saturation_vapor_pressure_ice", "dewpoint_from_vapor_pressure",
     "relative_humidity_water", "relative_humidity_ice", "dewpoint_from_relative_humidity",
     "saturation_mixing_ratio", "mixing_ratio_from_dewpoint", "virtual_temperature",
@@ -25,23 +28,46 @@ EPSILON = RD / RV
 G0 = 9.80665  # m/s2, standard gravity (exact, used for geopotential metres)
 CP_D = 1004.6662184201462  # J/(kg K), dry air at constant pressure (as MetPy)
 T0 = 273.15  # K
+KAPPA = RD / CP_D  # Poisson's constant of dry air
 
 
-def saturation_vapor_pressure_water(temperature):
-    """Saturation vapour pressure over plane liquid water, Pa.
+@jitable
+def ln_saturation_vapor_pressure_water(temperature, log_temperature):
+    """Natural logarithm of the saturation vapour pressure over plane liquid water (ln Pa).
 
     Murphy and Koop (2005), Q. J. R. Meteorol. Soc. 131, 1539-1565, eq. (10); valid 123-332 K, so it holds
     for supercooled water down to the homogeneous-freezing range.
 
     .. math:: \\ln e_w = 54.842763 - 6763.22/T - 4.210 \\ln T + 0.000367 T
               + \\tanh(0.0415 (T - 218.8)) (53.878 - 1331.22/T - 9.44523 \\ln T + 0.014025 T)
+
+    ``log_temperature`` is ln T (callers often have it already). tanh(u) is taken as 1 - 2 / (exp(2u) + 1):
+    one exponential, equal to rounding. Pure arithmetic: works on floats and numpy arrays and compiles with
+    numba for the column kernels (the one definition of e_w in the package).
     """
+    t, lt = temperature, log_temperature
+    th = 1.0 - 2.0 / (np.exp(0.083 * (t - 218.8)) + 1.0)
+    return (54.842763 - 6763.22 / t - 4.210 * lt + 0.000367 * t
+            + th * (53.878 - 1331.22 / t - 9.44523 * lt + 0.014025 * t))
+
+
+@jitable
+def ln_saturation_vapor_pressure_ice(temperature, log_temperature):
+    """Natural logarithm of the saturation vapour pressure over plane ice (ln Pa).
+
+    Murphy and Koop (2005), eq. (7); valid above 110 K.
+
+    .. math:: \\ln e_i = 9.550426 - 5723.265/T + 3.53068 \\ln T - 0.00728332 T
+    """
+    t = temperature
+    return 9.550426 - 5723.265 / t + 3.53068 * log_temperature - 0.00728332 * t
+
+
+def saturation_vapor_pressure_water(temperature):
+    """Saturation vapour pressure over plane liquid water, Pa (Murphy and Koop 2005, eq. 10; see
+    :func:`ln_saturation_vapor_pressure_water`)."""
     t = np.asarray(temperature, dtype=float)
-    lt = np.log(t)
-    return np.exp(
-        54.842763 - 6763.22 / t - 4.210 * lt + 0.000367 * t
-        + np.tanh(0.0415 * (t - 218.8)) * (53.878 - 1331.22 / t - 9.44523 * lt + 0.014025 * t)
-    )
+    return np.exp(ln_saturation_vapor_pressure_water(t, np.log(t)))
 
 
 def _dln_esw_dt(t):
@@ -56,14 +82,10 @@ def _dln_esw_dt(t):
 
 
 def saturation_vapor_pressure_ice(temperature):
-    """Saturation vapour pressure over plane ice, Pa.
-
-    Murphy and Koop (2005), eq. (7); valid above 110 K.
-
-    .. math:: \\ln e_i = 9.550426 - 5723.265/T + 3.53068 \\ln T - 0.00728332 T
-    """
+    """Saturation vapour pressure over plane ice, Pa (Murphy and Koop 2005, eq. 7; see
+    :func:`ln_saturation_vapor_pressure_ice`)."""
     t = np.asarray(temperature, dtype=float)
-    return np.exp(9.550426 - 5723.265 / t + 3.53068 * np.log(t) - 0.00728332 * t)
+    return np.exp(ln_saturation_vapor_pressure_ice(t, np.log(t)))
 
 
 def dewpoint_from_vapor_pressure(vapor_pressure):
