@@ -20,9 +20,11 @@ if settings is not None:
     # green one stays green; print_blob gives the reproduce-this-failure line. The shared 2-core runner makes
     # timings noisy, so CI sets no deadline and skips the timing-only health check. Locally ("dev") the search
     # stays random and keeps its example database, to keep finding new cases. HYPOTHESIS_PROFILE overrides both.
-    settings.register_profile("ci", derandomize=True, max_examples=100, deadline=None, print_blob=True,
+    # Both start from hypothesis's own defaults, not from the profile hypothesis itself picked at import.
+    _base = settings.get_profile("default")
+    settings.register_profile("ci", parent=_base, derandomize=True, max_examples=100, deadline=None, print_blob=True,
                               database=None, suppress_health_check=[HealthCheck.too_slow])
-    settings.register_profile("dev", derandomize=False, print_blob=True)
+    settings.register_profile("dev", parent=_base, derandomize=False, print_blob=True)
     _ci = os.environ.get("CI", "").strip().lower() not in ("", "0", "false", "no")
     settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE") or ("ci" if _ci else "dev"))
 
