@@ -1,4 +1,4 @@
-"""Test-only encoders: write profiles as FM 35 TEMP text and as IGRA v2 station files.
+"""Test-only encoders: write profiles as TEMP (FM 35-38) and PILOT (FM 32) text and as IGRA v2 station files.
 
 They follow WMO-No. 306 (FM 35) and the IGRA v2 format description independently of the decoders in
 ``icing.io`` (no code is shared), so that a round trip checks one against the other. Not part of the package.
@@ -85,15 +85,47 @@ def _wrap(groups, width):
     return "\n".join(lines)
 
 
+def position_groups(lat, lon):
+    """99LaLaLa QcLoLoLoLo MMMULaULo (WMO-No. 306 FM 36-38 section 1; Qc code table 3333: 1 N/E, 3 S/E,
+    5 S/W, 7 N/W). The Marsden square number MMM is written as '///' (not computed here); ULa and ULo are the
+    units digits of the whole degrees."""
+    qc = {(True, True): 1, (False, True): 3, (False, False): 5, (True, False): 7}[(lat >= 0, lon >= 0)]
+    la, lo = int(round(abs(lat) * 10)), int(round(abs(lon) * 10))
+    return [f"99{la:03d}", f"{qc}{lo:04d}", f"///{la // 10 % 10}{lo // 10 % 10}"]
+
+
+def section_one(form, part, yy_group, station, position=None, elevation=None, feet=False):
+    """Section 1 of one part: MiMiMjMj then YYGGId IIiii (land), D....D YYGGId and the position groups
+    (ship, mobile; mobile adding h0h0h0h0im, code table 1845: 1 metres, 5 feet), or YYGGId and the position
+    (drop), WMO-No. 306 FM 32-38 section 1."""
+    g = [f"{form}{part * 2}"]
+    if form in ("TT", "PP"):
+        return g + [yy_group, station]
+    if form != "XX":
+        g.append(station)
+    g.append(yy_group)
+    g += position_groups(*position)
+    if form in ("II", "EE"):
+        h = elevation / 0.3048 if feet else elevation
+        g.append(f"{int(round(h)):04d}{5 if feet else 1}")
+    return g
+
+
 def encode_temp(profile, station="00101", day=15, hour=0, knots=True, wind_top_a=100.0, wind_top_c=10.0,
-                tropopause=None, max_wind=None, width=66, parts="ABCD"):
+                tropopause=None, max_wind=None, width=66, parts="ABCD", form="TT", position=None,
+                elevation=None, feet=False):
     """TEMP text (Parts A-D) for one ascent.
 
     ``profile``: dict of arrays ``pressure`` (hPa, first = surface), ``height`` (m, needed at standard
     surfaces), ``temperature``, ``dewpoint`` (degC), ``wind_direction`` (deg), ``wind_speed`` (m/s).
     Standard surfaces are taken from the levels with those pressures; all other levels become Part B (at or
     above 100 hPa, whole hPa) or Part D (tenths of hPa) significant levels, with their winds in 21212.
+    ``form``: TT (TEMP), UU (TEMP SHIP), XX (TEMP DROP), II (TEMP MOBIL) with ``position`` (lat, lon) and,
+    for MOBIL, ``elevation`` (m; written in feet when ``feet``).
     """
+    def head(part, yy_group):
+        return section_one(form, part, yy_group, station, position, elevation, feet)
+
     p = np.asarray(profile["pressure"], dtype=float)
     get = {k: np.asarray(profile.get(k, np.full(p.size, np.nan)), dtype=float)
            for k in ("height", "temperature", "dewpoint", "wind_direction", "wind_speed")}
@@ -112,8 +144,8 @@ def encode_temp(profile, station="00101", day=15, hour=0, knots=True, wind_top_a
 
     out = []
     if "A" in parts:
-        g = ["TTAA", yy + ID_A.get(wind_top_a, "/"), station, f"99{int(round(psfc)) % 1000:03d}", tgroup(0),
-             wgroup(0)]
+        g = head("A", yy + ID_A.get(wind_top_a, "/")) + [f"99{int(round(psfc)) % 1000:03d}", tgroup(0),
+                                                         wgroup(0)]
         for ind, ps in STD_A:
             wind = ps >= wind_top_a
             i = find(ps)
@@ -139,7 +171,7 @@ def encode_temp(profile, station="00101", day=15, hour=0, knots=True, wind_top_a
     for part, rows, first in (("B", [0] + sig_b, "00"), ("D", sig_d, "11")):
         if part not in parts or not rows:
             continue
-        g = [f"TT{part * 2}", yy + "/", station]
+        g = head(part, yy + "/")
         nn = first
         wind_rows = []
         for i in rows:
@@ -156,7 +188,7 @@ def encode_temp(profile, station="00101", day=15, hour=0, knots=True, wind_top_a
                 nn = "11" if nn in ("00", "99") else NN[NN.index(nn) + 1]
         out.append(_wrap(g, width))
     if "C" in parts and any(find(ps) is not None for _, ps in STD_C):
-        g = ["TTCC", yy + ID_C.get(wind_top_c, "/"), station]
+        g = head("C", yy + ID_C.get(wind_top_c, "/"))
         for ind, ps in STD_C:
             i = find(ps)
             wind = ps >= wind_top_c
@@ -167,6 +199,39 @@ def encode_temp(profile, station="00101", day=15, hour=0, knots=True, wind_top_a
         g += ["88999", "77999"]
         out.append(_wrap(g, width))
     return "\n".join(out) + "\n"
+
+
+def encode_pilot_heights(altitudes, directions, speeds, station="00101", day=15, hour=0, knots=True, form="PP",
+                         position=None, elevation=None, width=66, part="B"):
+    """PILOT Part B (or D) winds by altitude: 9tnu1u2u3 then one ddfff per altitude, altitudes in units of
+    300 m (WMO-No. 306 FM 32 section 4, from memory); ``altitudes`` are whole multiples of 300 m, ascending.
+    Altitudes sharing their tens digit tn go into one group, at most three a group."""
+    units = [int(round(a / 300.0)) for a in altitudes]
+    yy = f"{day + 50 if knots else day:02d}{hour:02d}/"
+    g = section_one(form, part, yy, station, position, elevation)
+    k = 0
+    while k < len(units):
+        tn = units[k] // 10
+        run = [j for j in range(k, min(k + 3, len(units))) if units[j] // 10 == tn]
+        g.append(f"9{tn}" + "".join(str(units[j] % 10) for j in run).ljust(3, "/"))
+        g += [wind_code(directions[j], speeds[j], knots) for j in run]
+        k = run[-1] + 1
+    return _wrap(g, width) + "\n"
+
+
+def encode_pilot_standard(pressures, directions, speeds, station="00101", day=15, hour=0, knots=True,
+                          measured=True, width=66, part="A"):
+    """PILOT Part A (or C) winds at consecutive standard surfaces: 44nP1P1 (55nP1P1 when not ``measured``)
+    and n ddfff groups, n at most 3 (WMO-No. 306 FM 32 section 2, from memory)."""
+    table = STD_A if part == "A" else STD_C
+    ind = {p: i for i, p in table}
+    yy = f"{day + 50 if knots else day:02d}{hour:02d}/"
+    g = section_one("PP", part, yy, station)
+    for k in range(0, len(pressures), 3):
+        chunk = list(range(k, min(k + 3, len(pressures))))
+        g.append(f"{44 if measured else 55}{len(chunk)}{ind[pressures[k]]}")
+        g += [wind_code(directions[j], speeds[j], knots) for j in chunk]
+    return _wrap(g, width) + "\n"
 
 
 # ---------------------------------------------------------------------------------------------------------

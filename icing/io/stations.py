@@ -43,7 +43,7 @@ class StationList(dict):
         self.names = {}
 
 
-_IGRA_LINE = re.compile(r"^[A-Z]{2}[A-Z0-9]{9} [ -]\d{1,2}\.\d{4} [ -]{0,2}\d{1,3}\.\d{4} ")
+_IGRA_LINE = re.compile(r"^[A-Z]{2}[A-Z0-9]{9} +-?\d{1,2}\.\d{4} +-?\d{1,3}\.\d{4}(?: |$)")
 _ALIASES = {
     "station": ("station", "id", "station_id", "wmo", "wmo_id", "index", "iiiii", "icao", "call_sign"),
     "latitude": ("latitude", "lat", "latitude_deg"),

@@ -83,3 +83,56 @@ def test_igra_round_trip(profs, hour0):
     # Selecting by time range returns exactly the soundings inside it.
     sel = igra.decode_igra(text, start=times[0], end=times[0])
     assert [d.attrs["time"] for d in sel] == [out[0].attrs["time"]]
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(prof=encoders.soundings(), form=st.sampled_from(["UU", "XX", "II"]), feet=st.booleans(),
+       lat=st.floats(-89.9, 89.9), lon=st.floats(-179.9, 179.9), elevation=st.integers(0, 100))
+def test_ship_drop_mobil_round_trip(prof, form, feet, lat, lon, elevation):
+    """TEMP SHIP, DROP and MOBIL (WMO-No. 306 FM 36, 37, 38) decode to the same levels and values as the land
+    form of the same ascent; the position to its tenth of a degree (LaLaLa, LoLoLoLo); the MOBIL elevation
+    to the metre or foot it is coded in (h0h0h0h0im, code table 1845 from memory)."""
+    assume(encoders.within_height_windows(prof))
+    (ds,) = temp.decode_temp(encoders.encode_temp(prof, station="ZQXA7", form=form, position=(lat, lon),
+                                                  elevation=float(elevation), feet=feet))
+    # The land form with the same station elevation (a ship launches at sea level; a drop has none).
+    elev = {"UU": 0.0, "XX": np.nan, "II": ds.attrs["elevation"]}[form]
+    land = temp.decode_temp(encoders.encode_temp(prof, station="00105"), stations={"00105": (lat, lon, elev)})[0]
+    assert abs(ds.attrs["latitude"] - lat) <= 0.05 + 1e-9 and abs(ds.attrs["longitude"] - lon) <= 0.05 + 1e-9
+    if form == "II":
+        assert abs(ds.attrs["elevation"] - elevation) <= (0.5 * 0.3048 if feet else 0.5) + 1e-9
+    for name in ("pressure", "height", "temperature", "dewpoint", "wind_speed", "wind_direction"):
+        np.testing.assert_array_equal(ds[name].values, land[name].values)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(prof=encoders.soundings(), n=st.integers(1, 12), knots=st.booleans(), data=st.data())
+def test_winds_by_altitude_round_trip(prof, n, knots, data):
+    """PPBB winds by altitude (FM 32 section 4, 9tnu1u2u3, 300 m units, from memory) beside TTAA/TTBB: each
+    wind comes back at its altitude, to one unit of speed and 5 deg of direction, at the pressure that
+    log-pressure interpolation in the ascent's true heights gives, within 0.5 % (the decoded ascent's heights
+    of significant levels are hypsometric from coded temperatures, common practice)."""
+    assume(encoders.within_height_windows(prof))
+    ztrue = prof["true_height"]
+    top = min(int(ztrue[-1] // 300.0) - 1, 99)  # tn is one digit: altitudes up to 99 units
+    units = sorted(data.draw(st.sets(st.integers(1, top), min_size=n, max_size=n)))
+    alts = [u * 300.0 for u in units if ztrue[0] < u * 300.0 < ztrue[-1]]
+    assume(alts)
+    wd = data.draw(st.lists(st.integers(1, 72), min_size=len(alts), max_size=len(alts)))
+    ws = data.draw(st.lists(st.integers(1, 99), min_size=len(alts), max_size=len(alts)))
+    unit = KNOT if knots else 1.0
+    # The temperature parts carry no wind, so that a wind by altitude that falls on a level they report
+    # (a standard height in whole decametres) meets no other value for it.
+    prof = dict(prof, wind_speed=np.full(prof["pressure"].size, np.nan))
+    text = encoders.encode_temp(prof, station="00105", knots=knots) + encoders.encode_pilot_heights(
+        alts, [5.0 * d for d in wd], [s * unit for s in ws], station="00105", knots=knots)
+    (ds,) = temp.decode_temp(text)
+    assert ds.attrs["wind_parts"] == "B"
+    z, p = ds["height"].values, ds["pressure"].values
+    for alt, d, s in zip(alts, wd, ws, strict=True):
+        i = np.flatnonzero(np.isclose(z, alt, atol=1e-6))
+        assert i.size == 1, f"wind at {alt} m lost"
+        p_true = np.exp(np.interp(alt, ztrue, np.log(prof["pressure"])))
+        np.testing.assert_allclose(p[i[0]], p_true, rtol=5e-3)
+        np.testing.assert_allclose(ds["wind_speed"].values[i[0]], s * unit, atol=0.5 * unit + 1e-9)
+        np.testing.assert_allclose(ds["wind_direction"].values[i[0]], 5.0 * d, atol=1e-9)

@@ -198,7 +198,7 @@ for _m in KINDS:
 
 def _is_marsden(tok, lat, lon):
     """True for MMMULaULo whose units digits match the position (ULa, ULo: units of the whole degrees)."""
-    return (len(tok) == 5 and tok.isdigit() and tok[3] == str(int(abs(lat)) % 10)
+    return (len(tok) == 5 and (tok[:3].isdigit() or tok[:3] == "///") and tok[3] == str(int(abs(lat)) % 10)
             and tok[4] == str(int(abs(lon)) % 10))
 
 
