@@ -4,12 +4,13 @@ import json
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from numpy.testing import assert_allclose
 
 import icing
 from icing.flight.aircraft import get_aircraft
-from icing.flight.assess import SEGMENT_COLUMNS, assess_route
+from icing.flight.assess import SEGMENT_COLUMNS, assess_route, assess_routes
 from icing.flight.route import Route
 from icing.flight.sources import SoundingSource
 from icing.profile import build_profile
@@ -138,3 +139,136 @@ def test_demo_scenario():
     assert (seg["large_drops"] == "rain").any()
     assert res.summary["total_accretion_mm"] > 0
     assert set(seg["data"]) <= {"ok", "partial", "missing"}
+
+
+# ------------------------------------------------------------------------------- unknown is unknown in every column
+def test_no_valid_sounding_leaves_every_column_unknown(source):
+    """Departing two days after the last report (beyond max_age_hours): every segment is missing and says so in
+    every column, and the totals and worst segment are unknown, never 0 mm or 'none' (project rule)."""
+    res = assess_route(level([(50.0, -20.0), (50.6, -18.5), (51.0, -17.0)], "FL080", dep="2026-01-17T12:00Z"),
+                       source, "turboprop")
+    seg = res.segments
+    assert (seg["data"] == "missing").all() and (seg["intensity"] == "unknown").all()
+    for col in ("icing_minutes", "max_rate_mm_per_h", "accretion_mm", "warm_surface_minutes", "max_lwc_g_m3",
+                "mvd_um"):
+        assert seg[col].isna().all(), col
+    assert seg["ice_type"].isna().all() and seg["large_drops"].isna().all()
+    assert (seg["appendix_c"] == "unknown").all() and (seg["appendix_o"] == "unknown").all()
+    s = res.summary
+    assert np.isnan(s["total_icing_minutes"]) and np.isnan(s["total_accretion_mm"])
+    assert s["worst_segment"] is None and s["worst_intensity"] == "unknown" and s["data_complete"] is False
+    d = json.loads(res.to_json())
+    assert d["summary"]["total_accretion_mm"] is None and d["segments"][0]["accretion_mm"] is None
+    assert d["segments"][0]["ice_type"] is None and d["segments"][0]["intensity"] == "unknown"
+    assert "unknown" in repr(res)
+
+
+def test_partial_segment_is_a_lower_bound(source):
+    """A segment leaving the stations' reach has partial data: its values are lower bounds (lower_bound True)
+    and the totals say so; with a missing segment as well the totals become unknown."""
+    res = assess_route(level([(50.0, -20.0), (51.0, -17.0), (55.0, -10.0)], "FL080"), source, "turboprop")
+    seg = res.segments
+    assert (seg["lower_bound"] == (seg["data"] == "partial")).all()
+    assert seg["lower_bound"].any()
+    if (seg["data"] == "missing").any():
+        assert np.isnan(res.summary["total_accretion_mm"])
+        assert res.summary["worst_intensity"] == "unknown" and res.summary["worst_segment"] is None
+        assert res.summary["worst_known_segment"] == 1  # the in-cloud first segment, known to ice
+    else:
+        assert res.summary["totals_lower_bound"] is True
+
+
+# ------------------------------------------------------------------------------------- a library like its neighbours
+GOLDEN_DTYPES = {
+    "segment": "int64", "start": "text", "end": "text", "start_time": "datetime64[ns, UTC]",
+    "end_time": "datetime64[ns, UTC]", "distance_nm": "float64", "altitude_ft_min": "float64",
+    "altitude_ft_max": "float64", "icing_minutes": "float64", "max_rate_mm_per_h": "float64",
+    "accretion_mm": "float64", "intensity": "category", "ice_type": "category", "large_drops": "category",
+    "data": "category", "sources": "text", "warm_surface_minutes": "float64", "max_lwc_g_m3": "float64",
+    "mvd_um": "float64", "min_temperature_c": "float64", "freezing_level_ft": "float64",
+    "supercooled_top_ft": "float64", "appendix_c": "text", "appendix_o": "text", "data_distance_km": "float64",
+    "data_age_h": "float64", "best_altitude_ft": "float64", "best_accretion_mm": "float64", "lower_bound": "bool",
+}
+
+
+def test_segment_dtypes_golden(source):
+    """The segment table's dtypes (the documented contract of assess_route): times tz-aware UTC, words as
+    ordered categoricals, numbers float64, lower_bound bool."""
+    from icing.flight.assess import EXTRA_COLUMNS
+
+    for dep in ("2026-01-15T06:00Z", "2026-01-17T12:00Z"):  # with data and without: the same dtypes
+        seg = assess_route(level([(50.0, -20.0), (51.0, -17.0)], "FL080", dep=dep), source, "turboprop").segments
+        assert list(seg.columns) == SEGMENT_COLUMNS + EXTRA_COLUMNS
+        for col, want in GOLDEN_DTYPES.items():
+            got = seg[col].dtype
+            if want == "text":
+                assert pd.api.types.is_string_dtype(got), (col, got)
+                assert all(isinstance(v, str) for v in seg[col]), col
+            else:
+                assert str(got) == want, (col, got)
+    cats = {"intensity": ["none", "trace", "light", "moderate", "severe", "unknown"],
+            "ice_type": ["none", "rime", "mixed", "glaze"], "large_drops": ["none", "drizzle", "rain"],
+            "data": ["ok", "partial", "missing"]}
+    for col, want in cats.items():
+        assert seg[col].cat.ordered and list(seg[col].cat.categories) == want, col
+
+
+def test_intensity_orders_and_compares():
+    """Intensity words sort in the trade's order (trace < light < moderate < severe, US AIM 7-1-19 wording), with
+    unknown above severe so that a filter for the worst never drops a segment without data."""
+    from icing.flight.assess import INTENSITY_DTYPE
+
+    s = pd.Series(["severe", "unknown", "none", "light", "trace", "moderate"], dtype=INTENSITY_DTYPE)
+    assert s.sort_values().tolist() == ["none", "trace", "light", "moderate", "severe", "unknown"]
+    assert (s >= "moderate").tolist() == [True, True, False, False, False, True]
+    assert s.max() == "unknown"
+
+
+def test_times_are_utc_and_json_iso(source):
+    """start_time/end_time are tz-aware UTC; JSON gives ISO 8601 text with Z (RFC 3339 profile)."""
+    res = assess_route(level([(50.0, -20.0), (51.0, -17.0)], "FL080"), source, "turboprop")
+    seg = res.segments
+    assert seg["start_time"].iloc[0] == pd.Timestamp("2026-01-15T06:00Z")
+    assert (seg["end_time"] > seg["start_time"]).all()
+    rec = json.loads(res.to_json())["segments"][0]
+    assert rec["start_time"] == "2026-01-15T06:00:00Z"
+    assert pd.Timestamp(rec["end_time"]) == seg["end_time"].iloc[0]
+
+
+def test_unknown_keyword_is_a_type_error(source):
+    """As for any Python function, an unknown keyword raises TypeError (it was silently ignored); so do source
+    options given with a source already built, which would have no effect."""
+    route = level([(50.0, -20.0), (51.0, -17.0)], "FL080")
+    with pytest.raises(TypeError, match="sprd"):
+        assess_route(route, source, "turboprop", sprd=True)
+    with pytest.raises(TypeError, match="sprd"):
+        assess_routes([route], source, "turboprop", sprd=True)
+    with pytest.raises(TypeError, match="max_distance_km"):
+        assess_route(route, source, "turboprop", max_distance_km=100.0)
+
+
+def test_repr_is_short_and_html_has_the_caution(source):
+    """repr names route, aircraft, totals, worst segment and data status in a few lines, never the samples."""
+    res = assess_route(level([(50.0, -20.0), (51.0, -17.0)], "FL080"), source, "turboprop")
+    text = repr(res)
+    assert len(text.splitlines()) <= 12 and "turboprop" in text and "worst" in text and "ADVISORY" in text
+    assert str(res.samples["latitude"].iloc[3]) not in text
+    page = res._repr_html_()
+    assert "ADVISORY ONLY" in page and "<table" in page
+
+
+def test_route_notes_reach_the_summary(tmp_path, source):
+    """What the route reader ignored (an unknown column) is carried into the result's summary."""
+    p = tmp_path / "r.csv"
+    p.write_text("name,latitude,longitude,altitude,remark\nA,50,-20,FL080,x\nB,51,-17,FL080,y\n")
+    res = assess_route(p, source, "turboprop", departure="2026-01-15T06:00Z")
+    assert any("remark" in n for n in res.summary["notes"])
+    assert "remark" in repr(res)
+
+
+def test_departure_overrides_a_route_object(source):
+    """departure= applies to a Route object as to a file (it was ignored for Route objects)."""
+    route = level([(50.0, -20.0), (51.0, -17.0)], "FL080")
+    res = assess_route(route, source, "turboprop", departure="2026-01-15T09:00Z")
+    assert res.summary["departure"] == "2026-01-15T09:00:00Z"
+    assert res.segments["start_time"].iloc[0] == pd.Timestamp("2026-01-15T09:00Z")

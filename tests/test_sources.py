@@ -76,3 +76,15 @@ def test_height_and_pressure_agree(one_station):
     b = one_station.sample([52.0], [-30.0], t64("2026-01-15T00:00"), height=[z850])
     assert_allclose(a["temperature"], b["temperature"], atol=1e-9)
     assert_allclose(b["pressure"], [850e2], rtol=1e-9)
+
+
+def test_unknown_source_options_are_refused(demo_model):
+    """No option is dropped silently: an unknown keyword to a grid source is a TypeError, and an unknown
+    diagnosis parameter to a sounding source a ConfigError (both name it)."""
+    from icing.errors import ConfigError
+    from icing.flight.gridsource import GridSource
+
+    with pytest.raises(TypeError, match="sprd"):
+        GridSource(demo_model, sprd=True)
+    with pytest.raises(ConfigError, match="sprd"):
+        SoundingSource([prof("A", 52.0, -30.0, "2026-01-15T00:00Z")], sprd=True)

@@ -9,57 +9,80 @@ sample is unknown, and a segment with unknown samples never reports ``none``.
 
 from __future__ import annotations
 
-import json
-from dataclasses import dataclass, field
-
 import numpy as np
 import pandas as pd
 
 from icing import CAUTION
+from icing.flight.result import Assessment
 from icing.physics import thermo
 from icing.units import FT, NMI
 
-__all__ = ["assess_route", "assess_routes", "atmosphere_source", "Assessment", "SEGMENT_COLUMNS", "INTENSITIES",
-           "ICE_TYPES", "LARGE_DROPS", "DATA_STATUS"]
+__all__ = ["assess_route", "assess_routes", "atmosphere_source", "Assessment", "SEGMENT_COLUMNS", "EXTRA_COLUMNS",
+           "INTENSITIES", "ICE_TYPES", "LARGE_DROPS", "DATA_STATUS", "INTENSITY_DTYPE", "ICE_TYPE_DTYPE",
+           "LARGE_DROPS_DTYPE", "DATA_DTYPE"]
 
 INTENSITIES = ("none", "trace", "light", "moderate", "severe")
 ICE_TYPES = ("none", "rime", "mixed", "glaze")
 LARGE_DROPS = ("none", "drizzle", "rain")
 DATA_STATUS = ("ok", "partial", "missing")
+# Ordered categoricals of the segment table. ``unknown`` ranks above ``severe``: a segment without data cannot be
+# ruled out, so it sorts with the worst and ``segments.intensity >= "moderate"`` selects it too (unknown is never
+# safe). Ice type ranks by how wet the growth is, large drops by drop size, data by how much is missing.
+INTENSITY_DTYPE = pd.CategoricalDtype([*INTENSITIES, "unknown"], ordered=True)
+ICE_TYPE_DTYPE = pd.CategoricalDtype(list(ICE_TYPES), ordered=True)
+LARGE_DROPS_DTYPE = pd.CategoricalDtype(list(LARGE_DROPS), ordered=True)
+DATA_DTYPE = pd.CategoricalDtype(list(DATA_STATUS), ordered=True)
 SEGMENT_COLUMNS = ["segment", "start", "end", "start_time", "end_time", "distance_nm", "altitude_ft_min",
                    "altitude_ft_max", "icing_minutes", "max_rate_mm_per_h", "accretion_mm", "intensity", "ice_type",
                    "large_drops", "data", "sources"]
 EXTRA_COLUMNS = ["warm_surface_minutes", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
                  "supercooled_top_ft", "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
-                 "best_accretion_mm"]
+                 "best_accretion_mm", "lower_bound"]
 DEFAULT_OFFSETS_FT = (-6000.0, -4000.0, -2000.0, 2000.0, 4000.0, 6000.0)
 MIN_ALTERNATIVE_FT = 2000.0  # alternatives below this are not offered (terrain and airspace are unknown here)
 FULL = 0.999  # coverage at or above this counts as complete data
+# Options of assess_route besides its named parameters, by where they go.
+MATCH_OPTIONS = ("max_distance_km", "max_age_hours", "max_stations")
+DIAGNOSE_OPTIONS = ("cold_limit", "airmass")
+READ_OPTIONS = ("stations", "reference_time")
+ROUTE_OPTIONS = ("transition_ft",)
 
 
-@dataclass
-class Assessment:
-    """The result of :func:`assess_route`: ``segments`` (one row a segment), ``summary``, ``samples``."""
+def _threshold_options() -> tuple[str, ...] | None:
+    """Names of the cloud thresholds the diagnosis accepts as keywords (None: the table is not found, and the
+    diagnosis itself checks them)."""
+    import importlib
 
-    segments: pd.DataFrame
-    summary: dict
-    samples: pd.DataFrame
-    caution: str = CAUTION
-    alternatives: pd.DataFrame = field(default_factory=pd.DataFrame)
-    route: object = field(default=None, repr=False)  # the icing.flight.route.Route screened
-    source: object = field(default=None, repr=False)  # the atmosphere source used
+    for module in ("icing.physics.cloud", "icing.physics.layers"):
+        try:
+            return tuple(importlib.import_module(module).CLOUD_DEFAULTS)
+        except (ImportError, AttributeError):
+            continue
+    return None  # pragma: no cover
 
-    def to_dict(self) -> dict:
-        seg = self.segments.copy()
-        for c in ("start_time", "end_time"):
-            seg[c] = seg[c].astype(str)
-        records = json.loads(seg.to_json(orient="records", double_precision=6))
-        summary = {k: (None if isinstance(v, float) and np.isnan(v) else v) for k, v in self.summary.items()}
-        return {"caution": self.caution, "summary": summary, "segments": records}
 
-    def to_json(self, **kw) -> str:
-        """The result as JSON (RFC 8259: unknown numbers are null, never NaN)."""
-        return json.dumps(self.to_dict(), indent=kw.pop("indent", 2), allow_nan=False, **kw)
+def _source_options(options=()) -> tuple[str, ...]:
+    thresholds = _threshold_options()
+    if thresholds is None:  # unknown table: any other name goes to the diagnosis, which refuses unknown ones
+        thresholds = tuple(k for k in options if k not in ROUTE_OPTIONS)
+    return (*MATCH_OPTIONS, *DIAGNOSE_OPTIONS, *READ_OPTIONS, *thresholds)
+
+
+def _check_options(func, options, source_given, route_options=False):
+    """Refuse option names nobody uses (a TypeError, as Python does for any unknown keyword) and source options
+    given with a source already built (they would have no effect)."""
+    source_keys = _source_options(options)
+    allowed = (*source_keys, *ROUTE_OPTIONS) if route_options else source_keys
+    unknown = sorted(k for k in options if k not in allowed)
+    if unknown:
+        named = (*MATCH_OPTIONS, *DIAGNOSE_OPTIONS, *READ_OPTIONS, *(ROUTE_OPTIONS if route_options else ()))
+        raise TypeError(f"{func}() got an unexpected keyword argument {unknown[0]!r} (options: {', '.join(named)}, "
+                        "and the cloud thresholds of icing.physics.layers.CLOUD_DEFAULTS)")
+    if source_given:
+        idle = sorted(k for k in options if k in source_keys and options[k] is not None)
+        if idle:
+            raise TypeError(f"{func}() option {idle[0]!r} has no effect on an atmosphere source that is already "
+                            "built: give it when building the source (atmosphere_source, SoundingSource, GridSource)")
 
 
 def atmosphere_source(soundings, **options):
@@ -69,6 +92,7 @@ def atmosphere_source(soundings, **options):
     diagnosis), and for readers that need them ``stations`` (a station table: positions for TEMP reports) and
     ``reference_time`` (the month and year of TEMP reports, which carry only day and hour).
     """
+    _check_options("atmosphere_source", options, hasattr(soundings, "sample"))
     if hasattr(soundings, "sample"):
         return soundings
     from icing.flight.sources import SoundingSource
@@ -84,8 +108,8 @@ def atmosphere_source(soundings, **options):
             profiles.extend(read_paths(item, **read_opts))
         else:
             profiles.append(item)
-    keys = {"max_distance_km", "max_age_hours", "max_stations", "cold_limit", "airmass"}
-    return SoundingSource(profiles, **{k: v for k, v in options.items() if k in keys})
+    keys = set(_source_options(options)) - set(READ_OPTIONS)
+    return SoundingSource(profiles, **{k: v for k, v in options.items() if k in keys and v is not None})
 
 
 def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
@@ -137,20 +161,57 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
     aircraft : preset name, TOML path or :class:`icing.flight.aircraft.Aircraft`
     step_s : float
         Trajectory time step (s), default 60.
+    departure : str or time, optional
+        ISO 8601 UTC. When given it is the departure: a route's own times are all moved by the same amount
+        (timed legs keep their durations) and ``summary["notes"]`` says so; without it the route's own first time
+        is used (see :class:`icing.flight.route.Route`).
     offsets_ft : sequence of float
         Altitude offsets (ft) tried as alternatives, each applied to the whole route.
     use_winds : bool
         Ground speed from true airspeed plus the sounding winds where known.
     options :
-        ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass``
-        (diagnosis), ``stations`` and ``reference_time`` (TEMP reports), ``transition_ft``.
+        ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass`` and the
+        cloud thresholds (diagnosis), ``stations`` and ``reference_time`` (TEMP reports): these build the source
+        and are refused with a source already built; ``transition_ft``. Any other name raises ``TypeError``.
 
     Returns
     -------
     Assessment
-        ``segments`` with the columns of :data:`SEGMENT_COLUMNS` (then extra detail columns), ``summary`` and
-        the per-sample ``samples``. ADVISORY ONLY: see :data:`icing.CAUTION`.
+        ``segments`` (one row a segment), ``summary``, ``samples`` (one row a trajectory sample) and
+        ``alternatives``. ADVISORY ONLY: see :data:`icing.CAUTION`.
+
+    Notes
+    -----
+    The segment table has the columns :data:`SEGMENT_COLUMNS` then :data:`EXTRA_COLUMNS`, with these dtypes:
+
+    * ``segment`` int64; ``start``, ``end``, ``sources`` text (``;``-separated report labels);
+    * ``start_time``, ``end_time`` ``datetime64[ns, UTC]`` (to the second);
+    * ``intensity`` ordered categorical :data:`INTENSITY_DTYPE`: none < trace < light < moderate < severe <
+      unknown. ``unknown`` ranks above ``severe`` on purpose: where data are missing icing cannot be ruled out, so
+      sorting puts such segments with the worst and ``seg.intensity >= "moderate"`` selects them as well; select
+      known values with ``seg.data == "ok"``. Never null;
+    * ``ice_type`` (:data:`ICE_TYPE_DTYPE`: none < rime < mixed < glaze), ``large_drops``
+      (:data:`LARGE_DROPS_DTYPE`: none < drizzle < rain), ``data`` (:data:`DATA_DTYPE`: ok < partial < missing)
+      ordered categoricals;
+    * ``appendix_c``, ``appendix_o`` text (``n/a``, ``within``, ``unknown``, ``beyond``);
+    * ``lower_bound`` bool: True where ``data`` is ``partial``;
+    * every other column float64.
+
+    Unknown is null, never zero or ``none``. A segment whose ``data`` is ``missing`` has NaN in
+    ``icing_minutes``, ``max_rate_mm_per_h``, ``accretion_mm``, ``warm_surface_minutes``, ``max_lwc_g_m3`` and
+    ``mvd_um``, null (NaN category) in ``ice_type`` and ``large_drops``, ``unknown`` in ``intensity``,
+    ``appendix_c`` and ``appendix_o``. A segment whose ``data`` is ``partial`` holds what the samples with data
+    say: its numbers, ``ice_type`` and ``large_drops`` are lower bounds (``lower_bound`` True), and its
+    ``intensity`` is the worst known (``unknown`` when that is ``none``). ``mvd_um`` is NaN where no sample is in
+    icing; ``min_temperature_c``, ``freezing_level_ft``, ``supercooled_top_ft``, ``data_distance_km``,
+    ``data_age_h``, ``best_altitude_ft`` and ``best_accretion_mm`` are NaN where unknown.
+
+    In the summary, ``total_icing_minutes``, ``total_accretion_mm`` are NaN and ``worst_segment`` None with
+    ``worst_intensity`` ``unknown`` when any segment has no data (``worst_known_segment`` and
+    ``worst_known_intensity`` then give the worst among the segments with data); with partial data the totals are
+    lower bounds and ``totals_lower_bound`` is True. ``notes`` lists what the route reader ignored or decided.
     """
+    _check_options("assess_route", options, hasattr(soundings, "sample"), route_options=True)
     return assess_routes([route], soundings, aircraft, step_s=step_s, departure=departure,
                          offsets_ft=offsets_ft, use_winds=use_winds, **options)[0]
 
@@ -158,13 +219,22 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
 def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, departure=None,
                   offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, **options) -> list[Assessment]:
     """Screen many routes against one atmosphere source in one vectorised pass (see :func:`assess_route`)."""
+    from dataclasses import replace
+
     from icing.flight.aircraft import get_aircraft
     from icing.flight.route import DEFAULT_TRANSITION_FT, Route, plan_geometry, read_route, timed_arrays, wind_points
 
+    _check_options("assess_routes", options, hasattr(soundings, "sample"), route_options=True)
     ac = get_aircraft(aircraft)
-    source = atmosphere_source(soundings, **options)
+    source = atmosphere_source(soundings, **{k: v for k, v in options.items() if k not in ROUTE_OPTIONS})
     transition = options.get("transition_ft", DEFAULT_TRANSITION_FT)
-    rts = [r if isinstance(r, Route) else read_route(r, departure=departure) for r in routes]
+    rts = []
+    for r in routes:
+        if not isinstance(r, Route):
+            r = read_route(r, departure=departure)
+        elif departure is not None:  # the departure given wins over the Route's own (a note says so)
+            r = replace(r, departure=departure, notes=list(r.notes))
+        rts.append(r)
     geos = [plan_geometry(r, ac, transition) for r in rts]
     winds = [None] * len(geos)
     if use_winds:
@@ -197,7 +267,8 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         pressure_hpa=atm["pressure"] / 100.0, temperature_c=atm["temperature"], lwc_g_m3=atm["lwc"],
         mvd_um=atm["mvd"], large_drop=atm["large_drop"], coverage=atm["coverage"], in_icing=icing,
         warm_surface=warm,
-        rate_mm_per_h=rate, accretion_mm=rate * dur / 3600.0, ice_type=np.asarray(ICE_TYPES)[ice],
+        rate_mm_per_h=rate, accretion_mm=rate * dur / 3600.0,
+        ice_type=pd.Categorical.from_codes(np.where(atm["coverage"] > 0, ice, -1), dtype=ICE_TYPE_DTYPE),
         freezing_level_ft=atm["freezing_level_m"] / FT, supercooled_top_ft=atm["supercooled_top_m"] / FT,
         data_distance_km=atm["distance_km"], data_age_h=atm["age_h"])
     # Alternatives: the whole route shifted by each offset; per segment the least accretion with full data.
@@ -215,8 +286,9 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
     samples = samples.drop(columns="route")
     alternatives = alternatives.drop(columns="_route")
     rank = {"unknown": -1, **{k: i for i, k in enumerate(INTENSITIES)}}
-    cols = {"intensity": segments["intensity"].to_numpy(), "accretion_mm": segments["accretion_mm"].to_numpy(),
-            "icing_minutes": segments["icing_minutes"].to_numpy(), "data": segments["data"].to_numpy(),
+    cols = {"intensity": segments["intensity"].astype(str).to_numpy(),
+            "accretion_mm": segments["accretion_mm"].to_numpy(),
+            "icing_minutes": segments["icing_minutes"].to_numpy(), "data": segments["data"].astype(str).to_numpy(),
             "best_accretion_mm": segments["best_accretion_mm"].to_numpy()}
     cols["code"] = np.array([rank[x] for x in cols["intensity"]])
     for i, r in enumerate(rts):
@@ -281,10 +353,11 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice):
 
     cov_min = _reduce(np.minimum, cov, starts)
     cov_max = _reduce(np.maximum, cov, starts)
-    data = np.where(cov_min >= FULL, "ok", np.where(cov_max <= 0, "missing", "partial"))
+    status = np.where(cov_min >= FULL, 0, np.where(cov_max <= 0, 2, 1))  # codes of DATA_STATUS
+    data = np.asarray(DATA_STATUS)[status]
+    missing = status == 2
     code = _reduce(np.maximum, codes, starts)
-    intensity = np.where((data == "missing") | ((data == "partial") & (code <= 0)), "unknown",
-                         np.asarray(INTENSITIES)[np.clip(code, 0, 4)])
+    intensity = np.where(missing | ((status == 1) & (code <= 0)), len(INTENSITIES), np.clip(code, 0, 4))
     n_icing = _reduce(np.add, icing.astype(float), starts)
     acc = _reduce(np.add, known * dur / 3600.0, starts)
     used_seg = np.logical_or.reduceat(used, starts, axis=0) if used.size else np.zeros((n_seg, 0), bool)
@@ -306,33 +379,43 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice):
     best = np.argmin(key, axis=1)
     has_best = np.isfinite(mat[np.arange(n_seg), best])
     seg_route = np.repeat(np.arange(len(routes)), np.diff(offsets))
+    envelope = np.array(["n/a", "within", "unknown", "beyond"])
+
+    def unknown_if_missing(v):  # a segment without any data knows none of its sums and maxima
+        return np.where(missing, np.nan, v)
+
+    def category(codes_, dtype):
+        return pd.Categorical.from_codes(np.where(missing, -1, codes_), dtype=dtype)
+
     segments = pd.DataFrame({
-        "segment": leg[starts] + 1,
+        "segment": (leg[starts] + 1).astype(np.int64),
         "start": [a for a, _ in names], "end": [b for _, b in names],
-        "start_time": [_iso_s(t) for t in t_s[starts] - dur[starts] / 2],
-        "end_time": [_iso_s(t) for t in t_s[ends] + dur[ends] / 2],
+        "start_time": _utc_seconds(t_s[starts] - dur[starts] / 2),
+        "end_time": _utc_seconds(t_s[ends] + dur[ends] / 2),
         "distance_nm": leg_m / NMI,
         "altitude_ft_min": _reduce(np.minimum, alt, starts), "altitude_ft_max": alt_max,
-        "icing_minutes": _reduce(np.add, dur * icing, starts) / 60.0,
-        "max_rate_mm_per_h": _reduce(np.maximum, known, starts),
-        "accretion_mm": acc,
-        "intensity": intensity,
-        "ice_type": np.asarray(ICE_TYPES)[_reduce(np.maximum, ice.astype(int), starts)],
-        "large_drops": np.asarray(LARGE_DROPS)[_reduce(np.maximum, ld, starts)],
-        "data": data, "sources": sources,
-        "warm_surface_minutes": _reduce(np.add, dur * smp["warm_surface"].to_numpy(), starts) / 60.0,
-        "max_lwc_g_m3": _reduce(np.maximum, np.where(icing, lwc, 0.0), starts),
+        "icing_minutes": unknown_if_missing(_reduce(np.add, dur * icing, starts) / 60.0),
+        "max_rate_mm_per_h": unknown_if_missing(_reduce(np.maximum, known, starts)),
+        "accretion_mm": unknown_if_missing(acc),
+        "intensity": pd.Categorical.from_codes(intensity, dtype=INTENSITY_DTYPE),
+        "ice_type": category(_reduce(np.maximum, ice.astype(int), starts), ICE_TYPE_DTYPE),
+        "large_drops": category(_reduce(np.maximum, ld, starts), LARGE_DROPS_DTYPE),
+        "data": pd.Categorical.from_codes(status, dtype=DATA_DTYPE), "sources": sources,
+        "warm_surface_minutes": unknown_if_missing(_reduce(np.add, dur * smp["warm_surface"].to_numpy(), starts)
+                                                   / 60.0),
+        "max_lwc_g_m3": unknown_if_missing(_reduce(np.maximum, np.where(icing, lwc, 0.0), starts)),
         "mvd_um": np.where(n_icing > 0, _reduce(np.add, np.where(icing, np.nan_to_num(mvd), 0.0), starts)
                            / np.where(n_icing > 0, n_icing, 1), np.nan),
         "min_temperature_c": -fin_max(-temp),
         "freezing_level_ft": fin_mean(smp["freezing_level_ft"].to_numpy()),
         "supercooled_top_ft": fin_max(smp["supercooled_top_ft"].to_numpy()),
-        "appendix_c": np.array(["n/a", "within", "unknown", "beyond"])[_reduce(np.maximum, app_c, starts)],
-        "appendix_o": np.array(["n/a", "within", "unknown", "beyond"])[_reduce(np.maximum, app_o, starts)],
+        "appendix_c": np.where(missing, "unknown", envelope[_reduce(np.maximum, app_c, starts)]),
+        "appendix_o": np.where(missing, "unknown", envelope[_reduce(np.maximum, app_o, starts)]),
         "data_distance_km": fin_max(smp["data_distance_km"].to_numpy()),
         "data_age_h": fin_max(smp["data_age_h"].to_numpy()),
         "best_altitude_ft": np.where(has_best, alt_max + offs[best], np.nan),
         "best_accretion_mm": np.where(has_best, mat[np.arange(n_seg), best], np.nan),
+        "lower_bound": status == 1,
     }, columns=SEGMENT_COLUMNS + EXTRA_COLUMNS)
     alternatives = pd.DataFrame({
         "_route": np.repeat(seg_route, offs.size), "segment": np.repeat(leg[starts] + 1, offs.size),
@@ -341,8 +424,10 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice):
     return segments, alternatives
 
 
-def _iso_s(t) -> str:
-    return pd.Timestamp(round(float(t)), unit="s", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+def _utc_seconds(t) -> pd.DatetimeIndex:
+    """Seconds since 1970 as UTC times to the nearest second, ``datetime64[ns, UTC]``."""
+    seconds = np.round(np.asarray(t, dtype=float)).astype(np.int64)
+    return pd.DatetimeIndex(seconds.astype("datetime64[s]").astype("datetime64[ns]")).tz_localize("UTC")
 
 
 def _iso(ts) -> str:
@@ -350,28 +435,45 @@ def _iso(ts) -> str:
 
 
 def _summary(route, ac, seg, step_s):
-    """The route summary from its segments' columns (numpy arrays)."""
+    """The route summary from its segments' columns (numpy arrays).
+
+    Any segment without data makes the totals unknown (NaN) and the worst segment unknown (``worst_segment``
+    None, ``worst_intensity`` ``unknown``; ``worst_known_*`` name the worst among the segments with data). With
+    partial data the totals are lower bounds (``totals_lower_bound``).
+    """
     from icing.physics.accretion import INTENSITY_NOTE
 
     codes, acc, data, inten = seg["code"], seg["accretion_mm"], seg["data"], seg["intensity"]
-    worst = None
-    if codes.size and codes.max() > 0:
-        cand = np.flatnonzero(codes == codes.max())
-        worst = int(cand[np.argmax(acc[cand])]) + 1
-    best = seg["best_accretion_mm"]
     n_missing = int((data == "missing").sum())
     n_partial = int((data == "partial").sum())
+    worst_known = None
+    if codes.size and codes.max() > 0:
+        cand = np.flatnonzero(codes == codes.max())
+        worst_known = int(cand[np.argmax(np.nan_to_num(acc[cand]))]) + 1
+    worst_known_intensity = str(inten[worst_known - 1]) if worst_known else None
+    if n_missing:
+        worst, worst_intensity = None, "unknown"
+    elif worst_known:
+        worst, worst_intensity = worst_known, worst_known_intensity
+    else:
+        worst, worst_intensity = None, "unknown" if n_partial else "none"
+    best = seg["best_accretion_mm"]
+    unknown = float("nan")
     return {
         "route": route.name, "departure": _iso(route.departure), "aircraft": ac.name,
         "reference_body_diameter_m": ac.body_diameter_m, "time_step_s": step_s,
         "segments": int(codes.size),
-        "total_icing_minutes": float(seg["icing_minutes"].sum()),
-        "total_accretion_mm": float(acc.sum()),
+        "total_icing_minutes": unknown if n_missing else float(np.sum(seg["icing_minutes"])),
+        "total_accretion_mm": unknown if n_missing else float(np.sum(acc)),
+        "totals_lower_bound": bool(n_partial and not n_missing),
         "worst_segment": worst,
-        "worst_intensity": str(inten[worst - 1]) if worst else ("unknown" if n_missing or n_partial else "none"),
-        "best_altitude_plan_accretion_mm": float(best.sum()) if np.isfinite(best).all() else float("nan"),
+        "worst_intensity": worst_intensity,
+        "worst_known_segment": worst_known,
+        "worst_known_intensity": worst_known_intensity,
+        "best_altitude_plan_accretion_mm": float(best.sum()) if np.isfinite(best).all() else unknown,
         "segments_missing_data": n_missing, "segments_partial_data": n_partial,
         "data_complete": bool(n_missing == 0 and n_partial == 0),
+        "notes": list(getattr(route, "notes", []) or []),
         "intensity_note": INTENSITY_NOTE,
         "caution": CAUTION,
     }

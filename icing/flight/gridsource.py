@@ -87,7 +87,11 @@ class GridSource:
         if model.chunks and len(model.chunks.get("level", ())) > 1:
             model = model.chunk({"level": -1})  # every level of a column in one chunk
         keys = {"cold_limit", "airmass"} | set(CLOUD_DEFAULTS)
-        options = {k: v for k, v in diagnose_options.items() if k in keys}
+        unknown = sorted(set(diagnose_options) - keys)
+        if unknown:  # never drop an option silently
+            raise TypeError(f"GridSource() got an unexpected keyword argument {unknown[0]!r} (options: chunks, "
+                            "time_tolerance_hours, batch, cold_limit, airmass and the cloud thresholds)")
+        options = dict(diagnose_options)
         self.model = model
         self.diagnostics = diagnose_grid(model, None, **options)
         self.latitude = model["latitude"].values.astype(float)

@@ -1,6 +1,7 @@
 """Property tests of the route scorer (hypothesis): unknown is never safe; totals add up."""
 
 import numpy as np
+import pandas as pd
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -38,4 +39,12 @@ def test_no_data_never_reads_none(lat1, lon1, lat2, lon2, fl, hours):
             assert seg["data"] in ("partial", "missing")
         if (leg["coverage"] <= 0).all():
             assert seg["intensity"] == "unknown" and seg["data"] == "missing"
-    assert np.isclose(res.summary["total_icing_minutes"], res.segments["icing_minutes"].sum())
+            # Unknown in every column: no zero minutes, no 'none' ice type or large drops.
+            assert np.isnan(seg["icing_minutes"]) and np.isnan(seg["accretion_mm"])
+            assert pd.isna(seg["ice_type"]) and pd.isna(seg["large_drops"])
+        assert seg["lower_bound"] == (seg["data"] == "partial")
+    if (res.segments["data"] == "missing").any():  # a segment without data leaves the totals unknown
+        assert np.isnan(res.summary["total_icing_minutes"]) and np.isnan(res.summary["total_accretion_mm"])
+        assert res.summary["worst_intensity"] == "unknown" and res.summary["worst_segment"] is None
+    else:
+        assert np.isclose(res.summary["total_icing_minutes"], res.segments["icing_minutes"].sum())
