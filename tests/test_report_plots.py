@@ -327,3 +327,70 @@ def test_route_without_any_data_is_hatched_everywhere():
     chart = plots.segment_chart_figure(a)
     for axc in chart.axes:
         assert sum("no data" in t.get_text() for t in axc.texts) == 3
+
+
+@pytest.mark.parametrize("km, pa", [(1, 89875), (3, 70109), (5, 54020), (8, 35600), (10, 26436)])
+def test_pressure_altitude_against_the_standard_atmosphere(km, pa):
+    """US Standard Atmosphere 1976 (geopotential km -> Pa): the flight-level labels' pressure altitude."""
+    np.testing.assert_allclose(plots.pressure_altitude_ft(pa / 100.0), km * 1000 / 0.3048, rtol=1e-3)
+
+
+def test_wind_barbs_in_knots_against_metpy():
+    """Barb components in knots equal MetPy's wind_components (reference library) with 1 kt = 1852/3600 m/s."""
+    import xarray as xr
+    from metpy.calc import wind_components
+    from metpy.units import units
+
+    p = np.array([1000.0, 990.0, 850.0, 700.0, 500.0])
+    spd = np.array([6.2, 6.5, 15.0, 0.0, 30.0])  # m/s
+    wdir = np.array([240.0, 245.0, 270.0, 0.0, 10.0])
+    ds = xr.Dataset({"pressure": ("level", p), "wind_speed": ("level", spd), "wind_direction": ("level", wdir)})
+    bp, u, v = plots._wind_barbs(ds, 1050.0)
+    assert 990.0 not in bp  # thinned: closer than 0.045 in ln p to 1000 hPa
+    keep = np.isin(p, bp)
+    ru, rv = wind_components(spd[keep] * units("m/s"), wdir[keep] * units.deg)
+    np.testing.assert_allclose(u, ru.to("knot").m, atol=1e-6)
+    np.testing.assert_allclose(v, rv.to("knot").m, atol=1e-6)
+
+
+def test_sounding_figure_axes_people_fly_by():
+    """Right-hand labels: a flight level and the sounding's height in ft at each standard pressure; wind barbs
+    drawn; other report times of the station overlaid and named in the legend."""
+    from icing.io import read_profiles
+    from icing.physics.diagnose import diagnose
+
+    prof = read_profiles(SOUNDING)[0]
+    other = read_profiles(SAMPLES / "S1_00101_2026011512.csv")[0]
+    fig = plots.sounding_figure(prof, others=[("00101 12Z", diagnose(other))])
+    ax = next(a for a in fig.axes if a.get_xlabel().startswith("LWC"))
+    labels = {round(t): lab.get_text() for t, lab in zip(ax.get_yticks(), ax.get_yticklabels(), strict=True)}
+    assert labels[700].startswith("FL099")  # 700 hPa is 3,012 m = 9,882 ft pressure altitude (US Std Atm 1976)
+    z = prof["height"].values / 0.3048
+    p = prof["pressure"].values
+    expected = np.interp(-np.log(700.0), -np.log(p), z)
+    shown = float(labels[700].split("\n")[1].replace(",", "").replace(" ft", ""))
+    np.testing.assert_allclose(shown, expected, atol=1.0)
+    skew = fig.axes[0]
+    assert any(type(c).__name__ == "Barbs" for c in skew.collections)
+    legend = " ".join(t.get_text() for lg in fig.legends for t in lg.get_texts())
+    assert "also used: 00101 12Z" in legend and "kt" in legend
+
+
+def test_cross_section_clock_time_and_flight_levels(assessment):
+    """A second x axis gives the clock time (UTC) of the samples at their distance; the right axis flight
+    levels (altitude / 100 ft)."""
+    fig = plots.cross_section_figure(assessment)
+    ax = fig.axes[0]
+    secondary = [c for c in ax.child_axes if type(c).__name__ == "SecondaryAxis"]
+    time_ax = next(c for c in secondary if c.get_xlabel().startswith("time along the route (UTC"))
+    fl_ax = next(c for c in secondary if c.get_ylabel().startswith("flight level"))
+    smp = assessment.samples.sort_values("distance_m")
+    x = smp["distance_m"].to_numpy() / NMI
+    t = smp["time_s"].to_numpy()
+    to_minutes = time_ax._functions[0]
+    mid = len(x) // 2
+    np.testing.assert_allclose(to_minutes(x[mid]), (t[mid] - t[0]) / 60.0 + to_minutes(x[0]), atol=0.05)
+    fig.canvas.draw()
+    clock = [lab.get_text() for lab in time_ax.get_xticklabels() if lab.get_text()]
+    assert clock and all(len(c) == 5 and c[2] == ":" for c in clock)
+    assert fl_ax._functions[0](np.array([10000.0]))[0] == 100.0

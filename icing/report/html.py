@@ -464,18 +464,31 @@ def write_html(assessment, out_dir, source=None, *, soundings=True, progress=Non
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     written, images = [], {}
-    jobs = [("cross_section.png", "Route cross-section: distance against altitude, the flight path coloured by "
-             "accretion rate; hatched: no data (unknown, not clear air).",
+    jobs = [("cross_section.png", "Route cross-section: distance and clock time (UTC) against altitude and flight "
+             "level, the flight path coloured by accretion rate; hatched: no data (unknown, not clear air).",
              lambda: cross_section_figure(assessment, source)),
             ("segment_chart.png", "Per segment: accretion and minutes in icing, plan against best alternative "
              "altitude.", lambda: segment_chart_figure(assessment))]
     if soundings and _is_soundings(source) and hasattr(source, "diagnostics"):
+        used = set(_used_labels(assessment))
+        profiles = getattr(source, "profiles", None)
+
+        def profile(k):
+            return profiles.isel(profile=k) if profiles is not None and "profile" in getattr(profiles, "dims", {}) \
+                else None
+
         for j in _sounding_choices(assessment, source):
             label = str(source.labels[j])
+            others = [k for k in range(len(source.labels)) if k != j and str(source.station[k]) ==
+                      str(source.station[j]) and str(source.labels[k]) in used]
             name = "sounding_" + "".join(ch if ch.isalnum() else "_" for ch in label).strip("_") + ".png"
-            jobs.append((name, f"Sounding {label}: supercooled layers shaded, LWC and MVD beside.",
-                         lambda j=j, label=label: sounding_figure(source.diagnostics.isel(profile=j),
-                                                                  title=f"Sounding {label}")))
+            also = [str(source.labels[k]) for k in others]
+            caption = (f"Sounding {label}: supercooled layers shaded, LWC and MVD beside, wind barbs in knots, "
+                       "flight levels and heights (ft) on the right"
+                       + (f"; also used by the route, dashed: {', '.join(also)}." if also else "."))
+            jobs.append((name, caption, lambda j=j, label=label, others=others: sounding_figure(
+                source.diagnostics.isel(profile=j), title=f"Sounding {label}", wind=profile(j),
+                others=[(str(source.labels[k]), source.diagnostics.isel(profile=k)) for k in others])))
     for k, (name, caption, make) in enumerate(jobs):
         if progress is not None:
             progress(k, len(jobs), f"drawing {name}")

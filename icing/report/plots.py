@@ -21,9 +21,11 @@ from matplotlib.patches import Patch
 
 from icing import CAUTION
 from icing.errors import IcingError
+from icing.report.tables import KT_PER_MS
 from icing.units import FT, NMI
 
 __all__ = ["PALETTE", "RATE_CMAP", "RATE_NORM", "LWC_CMAP", "FIGURE_SIZES", "DPI", "sounding_figure",
+           "pressure_altitude_ft",
            "cross_section_figure", "segment_chart_figure", "save_figure", "plot_sounding_main"]
 
 # Our own colour scheme.
@@ -55,7 +57,7 @@ RATE_BOUNDS = [0.0, 1e-6, 0.25 * _IN_PER_H_MM, 1.0 * _IN_PER_H_MM, 3.0 * _IN_PER
 RATE_NORM = BoundaryNorm(RATE_BOUNDS, RATE_CMAP.N)
 RATE_WORDS = ["none", "trace", "light", "moderate", "severe"]
 LWC_CMAP = LinearSegmentedColormap.from_list("icing_lwc", ["#eaf6f6", "#a8dadc", "#2a7f86"])
-FIGURE_SIZES = {"sounding": (10.0, 7.5), "cross_section": (12.0, 6.0), "segments": (11.0, 4.8)}
+FIGURE_SIZES = {"sounding": (10.0, 7.5), "cross_section": (12.0, 7.0), "segments": (11.0, 4.8)}
 DPI = 100
 MISSING_HATCH = "///"
 PARTIAL_HATCH = ".."
@@ -101,7 +103,7 @@ def _diagnostics(data, cold_limit, airmass):
 
 
 def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="continental", title=None,
-                    top_hpa=None) -> Figure:
+                    top_hpa=None, wind=None, others=()) -> Figure:
     """Skew-T diagram of one sounding with its supercooled layers, and the LWC/MVD profile beside it.
 
     Parameters
@@ -116,15 +118,25 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
         Defaults to station, name and time.
     top_hpa : float, optional
         Top of the diagram (hPa); default the top of the data, not above 100 hPa.
+    wind : xarray.Dataset, optional
+        A profile with ``wind_speed`` (m/s) and ``wind_direction`` (deg) on its own levels, drawn as barbs in
+        knots; default the winds of the profile given, if any.
+    others : sequence of (label, xarray.Dataset)
+        Other reports of the same station that the route used: their temperature and dewpoint are drawn as thin
+        dashed lines, labelled with their time.
 
     Returns
     -------
     matplotlib.figure.Figure
         Temperature, dewpoint, 0 degC and cold-limit isotherms, supercooled layers shaded, warm layers aloft
-        marked, levels without usable data hatched; LWC (g/m3) and MVD (um) against pressure on the right.
+        marked, levels without usable data hatched, wind barbs (kt); LWC (g/m3) and MVD (um) against pressure,
+        with the sounding's height (ft) and the flight level (ISA pressure altitude) of each pressure on the
+        right.
     """
     from metpy.plots import SkewT
 
+    if wind is None and "wind_speed" in diagnostics_or_profile:
+        wind = diagnostics_or_profile
     ds = _diagnostics(diagnostics_or_profile, cold_limit, airmass)
     extra = [d for d in ds.dims if d != "level" and ds.sizes[d] > 1]
     if extra:
@@ -149,7 +161,7 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
     lwc, mvd = col("lwc"), col("mvd")
 
     fig = _new_figure("sounding")
-    gs = fig.add_gridspec(1, 2, width_ratios=[3.2, 1.0], left=0.07, right=0.97, top=0.86, bottom=0.2, wspace=0.06)
+    gs = fig.add_gridspec(1, 2, width_ratios=[3.2, 1.0], left=0.07, right=0.895, top=0.86, bottom=0.2, wspace=0.06)
     skew = SkewT(fig, rotation=45, subplot=gs[0, 0], aspect="auto")
     ax = skew.ax
     bottom_p = max(1050.0, float(np.nanmax(p)) + 5) if np.nanmax(p) > 1000 else float(np.nanmax(p)) + 20
@@ -177,11 +189,24 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
     okt, okd = np.isfinite(t), np.isfinite(td)
     skew.plot(p[okt], t[okt], color=PALETTE["temperature"], lw=2.2, zorder=3)
     skew.plot(p[okd], td[okd], color=PALETTE["dewpoint"], lw=2.0, zorder=3)
+    other_handles = []
+    for k, (label, other) in enumerate(others):
+        op = np.asarray(other["pressure"].values, float).ravel()
+        ls = ["--", ":", "-."][k % 3]
+        for name, colour in (("temperature", PALETTE["temperature"]), ("dewpoint", PALETTE["dewpoint"])):
+            if name in other:
+                ov = np.asarray(other[name].values, float).ravel()
+                ok = np.isfinite(op) & np.isfinite(ov)
+                skew.plot(op[ok], ov[ok], color=colour, lw=1.1, ls=ls, alpha=0.8, zorder=2.8)
+        other_handles.append(Line2D([], [], color="#555555", lw=1.1, ls=ls, label=f"also used: {label}"))
+    barbs = _wind_barbs(wind, bottom_p)
+    if barbs is not None:
+        skew.plot_barbs(barbs[0], barbs[1], barbs[2], length=5.5, color="#333333", xloc=0.97)
     ax.set_xlabel("temperature (°C)")
     ax.set_ylabel("pressure (hPa)")
     for lo, hi in _runs(warm):
         b, tp = _band_edges(p, lo, hi)
-        ax.text(0.98, float(np.sqrt(b * tp)), "warm layer aloft", transform=ax.get_yaxis_transform(), ha="right",
+        ax.text(0.86, float(np.sqrt(b * tp)), "warm layer aloft", transform=ax.get_yaxis_transform(), ha="right",
                 va="center", fontsize=8, color="#7a4a12", zorder=4)
     handles = [
         Line2D([], [], color=PALETTE["temperature"], lw=2.2, label="temperature"),
@@ -192,8 +217,11 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
         Patch(facecolor=PALETTE["warm"], alpha=0.45, label="warm layer aloft (above 0 °C over colder air)"),
         Patch(facecolor=PALETTE["missing_face"], edgecolor=PALETTE["missing_hatch"], hatch=MISSING_HATCH,
               label="no usable data (unknown, not clear)"),
+        *other_handles,
     ]
-    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.06, 0.05), ncol=4, fontsize=7.5, frameon=False)
+    if barbs is not None:
+        handles.append(Line2D([], [], color="#333333", lw=0, label="wind barbs in kt (full barb 10 kt, flag 50)"))
+    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.06, 0.03), ncol=4, fontsize=7.5, frameon=False)
 
     okl = np.isfinite(lwc)
     ax2.plot(np.where(okl, lwc, np.nan), p, color=PALETTE["lwc"], lw=2.0)
@@ -213,6 +241,7 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
     ax3.set_xlim(0.0, max(50.0, float(np.nanmax(mvd[okm])) * 1.15) if okm.any() else 50.0)
     ax3.set_ylim(bottom_p, top_p)
     ax2.grid(True, color=PALETTE["grid"], lw=0.5)
+    _height_axis(ax2, p, col("height"), bottom_p, top_p)
     a = ds.attrs
     if title is None:
         when = str(a.get("time", ""))
@@ -222,6 +251,66 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="contin
              f"in cloud; airmass {a.get('airmass', airmass)}", fontsize=8, color="#444444")
     _caution(fig)
     return fig
+
+
+# Pressure altitude in the US Standard Atmosphere 1976 troposphere: T0 288.15 K, lapse 6.5 K/km, p0 1013.25 hPa,
+# g0 9.80665 m/s2, R* 8.31432 J/(mol K), M 0.0289644 kg/mol.
+_ISA_T0, _ISA_LAPSE, _ISA_P0 = 288.15, 0.0065, 1013.25
+_ISA_EXPONENT = 8.31432 / 0.0289644 * _ISA_LAPSE / 9.80665
+
+
+def pressure_altitude_ft(pressure_hpa):
+    """Pressure altitude (ft) of a pressure (hPa) in the US Standard Atmosphere 1976 (troposphere, below 11 km)."""
+    p = np.asarray(pressure_hpa, dtype=float)
+    return _ISA_T0 / _ISA_LAPSE * (1.0 - (p / _ISA_P0) ** _ISA_EXPONENT) / FT
+
+
+STANDARD_LEVELS_HPA = (1000, 925, 850, 700, 600, 500, 400, 300, 250, 200, 150, 100)
+
+
+def _height_axis(ax, p, z, bottom_p, top_p):
+    """Right-hand labels at standard pressures: the flight level (ISA pressure altitude / 100 ft) and the
+    sounding's own height (ft above mean sea level, interpolated in ln p between its levels)."""
+    levels = np.array([x for x in STANDARD_LEVELS_HPA if top_p <= x <= bottom_p], dtype=float)
+    if levels.size == 0:
+        return
+    labels = []
+    ok = np.isfinite(p) & np.isfinite(z)
+    for lev, fl in zip(levels, pressure_altitude_ft(levels) / 100.0, strict=True):
+        text = f"FL{max(fl, 0):03.0f}"
+        if ok.sum() >= 2 and p[ok].min() <= lev <= p[ok].max():
+            height = np.interp(-np.log(lev), -np.log(p[ok]), z[ok]) / FT
+            text += f"\n{height:,.0f} ft"
+        labels.append(text)
+    ax.yaxis.tick_right()
+    ax.yaxis.set_label_position("right")
+    ax.yaxis.set_major_locator(matplotlib.ticker.FixedLocator(levels))
+    ax.yaxis.set_major_formatter(matplotlib.ticker.FixedFormatter(labels))
+    ax.yaxis.set_minor_locator(matplotlib.ticker.NullLocator())
+    ax.tick_params(axis="y", labelsize=7)
+    ax.set_ylabel("flight level and height of this sounding (ft MSL)", fontsize=8)
+
+
+def _wind_barbs(wind, bottom_p, min_dlnp=0.045):
+    """(pressure, u, v) in knots for barbs, thinned so that barbs are at least ``min_dlnp`` apart in ln p."""
+    if wind is None or "wind_speed" not in wind or "wind_direction" not in wind:
+        return None
+    p = np.asarray(wind["pressure"].values, float).ravel()
+    spd = np.asarray(wind["wind_speed"].values, float).ravel() * KT_PER_MS
+    wdir = np.radians(np.asarray(wind["wind_direction"].values, float).ravel())
+    ok = np.isfinite(p) & np.isfinite(spd) & np.isfinite(wdir) & (p <= bottom_p)
+    if not ok.any():
+        return None
+    p, spd, wdir = p[ok], spd[ok], wdir[ok]
+    order = np.argsort(-p)
+    keep, last = [], None
+    for i in order:
+        if last is None or abs(np.log(p[last]) - np.log(p[i])) >= min_dlnp:
+            keep.append(i)
+            last = i
+    keep = np.array(keep)
+    # Meteorological direction is where the wind blows from: u = -s sin(dir), v = -s cos(dir).
+    return p[keep], -spd[keep] * np.sin(wdir[keep]), -spd[keep] * np.cos(wdir[keep])
 
 
 # ------------------------------------------------------------------------------------------ cross-section
@@ -294,8 +383,8 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
         top_ft = float(np.ceil(top_ft / 1000.0) * 1000.0)
 
     fig = _new_figure("cross_section")
-    ax = fig.add_axes([0.065, 0.2, 0.76 if source is not None else 0.8, 0.68])
-    cax = fig.add_axes([0.845 if source is not None else 0.885, 0.2, 0.015, 0.68])
+    ax = fig.add_axes([0.065, 0.3, 0.71 if source is not None else 0.75, 0.58])
+    cax = fig.add_axes([0.845 if source is not None else 0.885, 0.3, 0.015, 0.58])
     ax.set_xlim(0.0, xmax)
     ax.set_ylim(0.0, top_ft)
     legend = []
@@ -308,7 +397,7 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
         mesh = ax.pcolormesh(x_edges, z_edges, np.ma.masked_invalid(lwc), cmap=LWC_CMAP, vmin=0.0,
                              vmax=max(0.5, float(np.nanmax(lwc)) if np.isfinite(lwc).any() else 0.5), zorder=1,
                              shading="flat")
-        lcb = fig.colorbar(mesh, cax=fig.add_axes([0.935, 0.2, 0.015, 0.68]))
+        lcb = fig.colorbar(mesh, cax=fig.add_axes([0.935, 0.3, 0.015, 0.58]))
         lcb.set_label("supercooled liquid water content (g/m³)", fontsize=8)
         lcb.ax.tick_params(labelsize=7)
         legend.append(Patch(facecolor=PALETTE["supercooled"], label="supercooled liquid (shade: LWC)"))
@@ -397,13 +486,59 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
     ax.set_ylabel("altitude (ft; flight levels as pressure altitude)")
     ax.yaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"{v:,.0f}"))
     ax.grid(True, color=PALETTE["grid"], lw=0.5, zorder=0)
-    ax.legend(handles=legend, loc="upper left", bbox_to_anchor=(0.0, -0.13), ncol=4, fontsize=7.5, frameon=False)
+    _time_axis(ax, x, smp["time_s"].to_numpy(float), xmax)
+    fl = ax.secondary_yaxis("right", functions=(lambda v: np.asarray(v) / 100.0, lambda v: np.asarray(v) * 100.0))
+    fl.yaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"FL{v:03.0f}" if v >= 0 else ""))
+    fl.set_ylabel("flight level (altitude / 100 ft)", fontsize=8)
+    fl.tick_params(labelsize=8)
+    ax.legend(handles=legend, loc="upper left", bbox_to_anchor=(0.0, -0.3), ncol=4, fontsize=7.5, frameon=False)
     s = assessment.summary
     fig.suptitle(f"Route cross-section: {s.get('route', '')}, departure {s.get('departure', '')}, "
                  f"aircraft {s.get('aircraft', '')}", fontsize=12, x=0.065, ha="left", y=0.98)
     fig.text(0.065, 0.935, note, fontsize=8, color="#444444")
     _caution(fig)
     return fig
+
+
+def _time_axis(ax, x_nm, time_s, xmax):
+    """A second x axis below the distances: the clock time (UTC) at which the aircraft passes each point."""
+    import datetime as _dt
+
+    ok = np.isfinite(x_nm) & np.isfinite(time_s)
+    if ok.sum() < 2:
+        return None
+    x, t = x_nm[ok], time_s[ok]
+    order = np.argsort(x)
+    x, t = x[order], np.maximum.accumulate(t[order])
+    # Extend to both ends of the route at the speed of the first and last samples.
+    def slope(i, j):
+        return (t[j] - t[i]) / (x[j] - x[i]) if x[j] > x[i] else 0.0
+    x = np.concatenate([[0.0], x, [xmax]])
+    t = np.concatenate([[t[0] - slope(0, 1) * x[1]], t, [t[-1] + slope(-2, -1) * (xmax - x[-2])]])
+    keep = np.concatenate([[True], np.diff(t) > 0])
+    x, t = x[keep], t[keep]
+    if x.size < 2:
+        return None
+    t0 = t[0]
+    minutes = (t - t0) / 60.0
+    sec = ax.secondary_xaxis(-0.16, functions=(lambda d: np.interp(d, x, minutes),
+                                               lambda m: np.interp(m, minutes, x)))
+    span = minutes[-1] - minutes[0]
+    step = next((s for s in (5, 10, 15, 20, 30, 60, 120, 180, 360) if span / s <= 10), 720)
+    start_clock = t0 / 60.0
+    first = np.ceil(start_clock / step) * step
+    ticks = np.arange(first, start_clock + span + 1e-9, step) - start_clock
+    sec.xaxis.set_major_locator(matplotlib.ticker.FixedLocator(ticks))
+
+    def clock(m, _pos=None):
+        when = _dt.datetime.fromtimestamp(t0 + m * 60.0, tz=_dt.UTC)
+        return when.strftime("%H:%M")
+
+    sec.xaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(clock))
+    day = _dt.datetime.fromtimestamp(t0, tz=_dt.UTC).strftime("%Y-%m-%d")
+    sec.set_xlabel(f"time along the route (UTC, {day})", fontsize=9)
+    sec.tick_params(labelsize=8)
+    return sec
 
 
 # ---------------------------------------------------------------------------------------- segment chart
