@@ -294,9 +294,25 @@ def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_r
 
 @functools.lru_cache(maxsize=1)
 def _compiled_rows():
+    """The kernel, with one signature: read-only inputs of any layout (numpy's broadcast views and dask's
+    chunks are read-only; writable arrays convert), outputs of any layout."""
+    from numba import types
+
     from icing.physics.jit import jit
 
-    return jit(_diagnose_rows)
+    f8, b1, i1 = types.float64, types.boolean, types.int8
+    ro1, ro2 = types.Array(f8, 1, "A", readonly=True), types.Array(f8, 2, "A", readonly=True)
+    signature = types.void(ro2, ro2, ro2, ro2, ro2, b1, f8, ro1, ro1, ro1, ro1, ro1, types.UniTuple(ro1, 5), ro1,
+                           ro1, b1, f8, f8, types.Array(f8, 3, "A"), types.Array(b1, 3, "A"),
+                           types.Array(i1, 3, "A"), types.Array(i1, 1, "A"), types.Array(types.int64, 1, "A"))
+    return jit(_diagnose_rows, signature)
+
+
+def _read_only(a):
+    """A read-only float view of ``a`` (the kernel's one signature takes read-only inputs)."""
+    v = np.asarray(a, dtype=float).view()
+    v.flags.writeable = False
+    return v
 
 
 def compile_kernels():
@@ -388,15 +404,18 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     ptype = np.empty(npro, np.int8)
     crossings = np.empty(npro, np.int64)
     kernel = _compiled_rows()
-    f64 = np.ascontiguousarray
+
+    ro = _read_only
+    shared = (ro(settings), *(ro(a) for a in tables), tuple(ro(a) for a in adiabat.moist_adiabat_tables()),
+              ro(cap_t), ro(cap_v))
+    mvd_ratio = microphysics.mvd_to_mean_volume_ratio(airmass)
 
     def block(i):  # writes into its rows of the outputs; blocks of profiles stay in cache
         sl = slice(i, i + _BLOCK)
-        kernel(f64(p if p.shape[0] == 1 else p[sl]), f64(t[sl]), f64(td[sl]), f64(z[sl]),
-               f64(cl if not has_model else cl[sl]), has_model, float(cold_limit), settings, *tables,
-               adiabat.moist_adiabat_tables(), cap_t, cap_v, bool(prm["stratiform_cap"]), float(n_drop),
-               microphysics.mvd_to_mean_volume_ratio(airmass), out_f[:, sl], out_b[:, sl], out_i[:, sl],
-               ptype[sl], crossings[sl])
+        kernel(ro(p if p.shape[0] == 1 else p[sl]), ro(t[sl]), ro(td[sl]), ro(z[sl]),
+               ro(cl if not has_model else cl[sl]), has_model, float(cold_limit), *shared,
+               bool(prm["stratiform_cap"]), float(n_drop), mvd_ratio, out_f[:, sl], out_b[:, sl],
+               out_i[:, sl], ptype[sl], crossings[sl])
 
     starts = range(0, max(npro, 1), _BLOCK)
     if workers > 1 and len(starts) > 1:

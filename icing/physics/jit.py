@@ -24,16 +24,17 @@ def jitable(func):
     return func
 
 
-def jit(func=None, **options):
+def jit(func=None, signature=None, **options):
     """``func`` compiled with numba (no Python objects, GIL released, cached on disk, numpy's error model:
     a division by zero gives inf or NaN as in numpy, never an exception). Usable as a decorator. The
-    functions marked with :func:`jitable` that it calls are compiled into it."""
+    functions marked with :func:`jitable` that it calls are compiled into it. With a ``signature`` it is
+    compiled now for exactly that one (so that inputs of other layouts or write flags do not each compile
+    another copy)."""
     import numba
     from numba.extending import register_jitable
 
     while _PENDING:
         register_jitable(_PENDING.pop())
     opts = {"nogil": True, "cache": True, "error_model": "numpy", **options}
-    if func is None:
-        return lambda f: numba.njit(**opts)(f)
-    return numba.njit(**opts)(func)
+    decorate = numba.njit(signature, **opts) if signature is not None else numba.njit(**opts)
+    return decorate if func is None else decorate(func)
