@@ -144,6 +144,9 @@ def test_eccodes_and_pyproj_share_a_process_cleanly(tmp_path, order):
     # A PROJ in the global scope would serve every later-loaded library's look-ups (dlopen(3), RTLD_GLOBAL).
     assert out["proj_in_global_scope"] is False, detail
 
+    if order == "xarray-first" and importlib.util.find_spec("cfgrib") is not None:
+        # Otherwise this variant no longer exercises the path of the issue (xarray loading cfgrib's backend).
+        assert out["eccodes_loaded_by_open_dataset"], "engine-less open_dataset did not load eccodes"
     assert_allclose(out["nc_pressure"], pressure, rtol=0, atol=1e-9)
     assert out["bufr_profiles"] == 1
     # BUFR Table B 0 07 004 carries pressure in Pa (WMO-No. 306 Vol. I.2); the profile holds hPa.
