@@ -214,8 +214,9 @@ def test_segment_dtypes_golden(source):
 
 
 def test_intensity_orders_and_compares():
-    """Intensity words sort in the trade's order (trace < light < moderate < severe, US AIM 7-1-19 wording), with
-    unknown above severe so that a filter for the worst never drops a segment without data."""
+    """Intensity words sort in the trade's order (trace < light < moderate < severe: US Aeronautical Information
+    Manual, chapter 7, from memory), with unknown above severe so that a filter for the worst never drops a
+    segment without data."""
     from icing.flight.assess import INTENSITY_DTYPE
 
     s = pd.Series(["severe", "unknown", "none", "light", "trace", "moderate"], dtype=INTENSITY_DTYPE)
