@@ -171,3 +171,29 @@ def test_no_warning_for_a_clean_bulletin():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         assert len(temp.decode_temp(PART_A + "\n" + PART_A.replace("00101", "00102"))) == 2
+
+
+def test_later_report_without_part_identifier_in_a_bulletin():
+    """Liberal reading: a report after '=' in the same bulletin that starts with the same YYGG but no TTAA
+    is read as TTAA like the one before it, with a note; in another bulletin it is not."""
+    second = BODY_A.replace("99012", "99015")
+    text = f"USXX01 XXXX 150000\n{PART_A}\n65001 00102 {second}\n"
+    a, b = temp.decode_temp(text)
+    assert b.attrs["station"] == "00102" and _at(b, 1015, "temperature") == 4.4
+    assert any("without part identifier" in e["reason"] for e in b.attrs["quality"])
+    text = f"USXX01 XXXX 150000\n{PART_A}\nUSXX02 XXXX 150000\n65001 00102 {second}\n"
+    (a,) = temp.decode_temp(text)
+    assert a.attrs["station"] == "00101"
+
+
+def test_drop_regional_sections_recorded_as_one_group_each():
+    """TEMP DROP (FM 37) regional sections 61616 (aircraft, mission) and 62626 (remarks in plain language)
+    are skipped, each in one quality entry holding its groups, on the drop's own ascent."""
+    text = ("XXAA 65001 99241 70708 ///40 99012 04456 27010 00094 04256 27512 92728 02057 28015 85456 03462 "
+            "28520 70065 08160 29030 31313 09608 81400 61616 ZZ999 0615A INVNT OB 04 62626 SPL 2411N07049W "
+            "1403 MBL WND 27010=")
+    (ds,) = temp.decode_temp(text)
+    sections = {e["group"].split()[0]: e for e in ds.attrs["quality"] if e["action"] == "skipped"}
+    assert sections["61616"]["group"] == "61616 ZZ999 0615A INVNT OB 04"
+    assert sections["62626"]["group"].endswith("MBL WND 27010")
+    assert_allclose(_at(ds, 700, "temperature"), -8.1)

@@ -15,7 +15,7 @@ from __future__ import annotations
 import bisect
 import re
 
-from icing.io.temp.codes import decode_mobile_elevation, decode_position, nan
+from icing.io.temp.codes import decode_mobile_elevation, decode_position, is_section, nan
 
 __all__ = ["KINDS", "FORM_NAMES", "Report", "tokens", "split_reports", "skip", "resolve_columns",
            "clean_groups", "section_one"]
@@ -36,6 +36,8 @@ _SEQUENCE = re.compile(r"(?m)^[ \t]*\d{3}[ \t]*$")
 _CONTROL = {c: " " for c in range(32) if c != 10}
 _CONTROL.update({1: "=", 3: "=", 4: "="})
 _TOKEN = re.compile(r"[^\s=]+|=")
+_FREE_TEXT_SECTIONS = {"61616": "regional section 61616 (aircraft and mission) not used",
+                       "62626": "regional section 62626 (drop remarks) not used"}
 
 
 class Report:
@@ -115,9 +117,18 @@ def split_reports(toks, headings):
     reports, stray, cur = [], [], None
     parts, chars = PART_IDS, CHARS
     head_lines = [h[0] for h in headings]
+    last = None  # the land report just ended: (identifier, YYGG, bulletin number)
     for item in toks:
         tok = item[0]
         if cur is not None and len(tok) == 5 and not tok.strip(chars):
+            cur.tokens.append(item)
+        elif (cur is None and last is not None and len(tok) == 5 and tok[:4] == last[1]
+              and bisect.bisect_right(head_lines, item[1]) == last[2]):
+            # A later report of the same bulletin written without its part identifier (same YYGG).
+            cur = Report(last[0], item[1], item[2], reports[-1].bbb, len(reports))
+            cur.records.append({"level": None, "action": "note", "line": int(item[1]), "_k": int(item[2]),
+                                "reason": f"report without part identifier: read as {last[0]} like the report "
+                                "before it in the bulletin"})
             cur.tokens.append(item)
         elif tok in parts:
             if cur is not None:
@@ -134,6 +145,10 @@ def split_reports(toks, headings):
         elif tok == "=":
             if cur is not None:
                 reports.append(cur)
+                first = cur.tokens[0][0] if cur.tokens else ""
+                last = None
+                if cur.kind in ("TT", "PP") and len(first) == 5 and first[:4].isdigit():
+                    last = (cur.ident, first[:4], bisect.bisect_right(head_lines, cur.line))
                 cur = None
         elif cur is None:
             stray.append(item)
@@ -153,6 +168,13 @@ def clean_groups(rep, start=0):
     name = rep.ident
     while i < len(toks):
         tok, ln, col = toks[i]
+        if tok in _FREE_TEXT_SECTIONS:  # regional sections of plain-language groups: one record for all
+            j = i + 1
+            while j < len(toks) and not (len(toks[j][0]) == 5 and is_section(toks[j][0])):
+                j += 1
+            rep.records.append(skip(ln, col, " ".join(t[0] for t in toks[i:j]), _FREE_TEXT_SECTIONS[tok], name))
+            i = j
+            continue
         if (len(tok) == 5 and not tok.strip(CHARS)) or tok == "NIL":
             out.append(toks[i])
             i += 1
