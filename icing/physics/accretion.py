@@ -66,6 +66,7 @@ RECOVERY_FACTOR = 0.79  # of a cylinder, as in Makkonen (2000) (from memory)
 K_THRESHOLD = 0.125  # Langmuir-Blodgett: no impingement on a cylinder at or below K = 1/8
 K_FIT_MIN = 0.17  # lower end of the Finstad et al. (1988) fit
 PHI_FIT_MIN = 100.0  # the fit's C term needs phi >= 100
+PHI_FIT_MAX = 1.0e4  # upper end of the phi range the Finstad et al. (1988) fit was made for
 _IN_PER_H = 0.0254 / 3600.0  # m/s per inch per hour
 
 # Langmuir and Blodgett (1946) distribution "D": fraction of the liquid water in each of seven bins and the
@@ -182,7 +183,9 @@ def collision_efficiency_si(inertia_parameter, range_parameter):
     * 0.125 < K < 0.17: linear in K from 0 at K = 0.125 to the fit's value at K = 0.17;
     * phi < 100: linear in phi from the Langmuir-Blodgett phi -> 0 limit (see :func:`_langmuir_phi0`) at
       phi = 0 to the fit at phi = 100 (errs high, which is the cautious side);
-    * beyond phi = 10^4 the fit is extrapolated; the result is clipped to [0, 1].
+    * beyond phi = 10^4 (large, fast bodies) phi is held at 10^4: extrapolated, the fit's C term keeps
+      growing and drives E to zero even as K rises, so that a faster aircraft would collect less; E falls
+      with phi, so holding it errs high, the cautious side. The result is clipped to [0, 1].
 
     NaN in gives NaN out.
     """
@@ -190,7 +193,7 @@ def collision_efficiency_si(inertia_parameter, range_parameter):
     phi = np.asarray(range_parameter, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         kk = np.maximum(k, K_FIT_MIN)
-        fit_phi = np.maximum(phi, PHI_FIT_MIN)
+        fit_phi = np.clip(phi, PHI_FIT_MIN, PHI_FIT_MAX)
         fit = _finstad_fit(kk, fit_phi)
         # Below phi = 100, blend towards the phi -> 0 limit at the same K (limit taken at K >= 0.17 too).
         w = np.clip(phi / PHI_FIT_MIN, 0.0, 1.0)

@@ -2,7 +2,7 @@
 unknown never reads as zero, and the SI core equals the Quantity wrappers."""
 
 import numpy as np
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
@@ -32,10 +32,12 @@ def test_accretion_grows_with_lwc(w, d, v, t, p, dd, factor):
 @SETTINGS
 @given(w=st.floats(1e-5, 3e-4), d=mvd, v=st.floats(30.0, 150.0), t=st.floats(T0 - 40.0, T0 - 15.0), p=pres,
        dd=diam, factor=st.floats(1.05, 1.5))
+@example(w=3e-4, d=12.7e-6, v=138.0, t=T0 - 40.0, p=86974.0, dd=0.3, factor=1.5)  # phi beyond the fit's range
 def test_accretion_grows_with_airspeed_in_rime(w, d, v, t, p, dd, factor):
     """In dry growth (cold, little water) n = 1 and dM/dt = E w v D rises with v: E rises with K (which grows
     with v) except at large K, where the growing phi lowers it a little (Langmuir and Blodgett 1946), far
-    less than v rises."""
+    less than v rises. The example is a large, fast body (phi about 4e4, beyond the 1e4 for which the
+    Finstad et al. 1988 fit was made), where the extrapolated fit once gave E = 0 at the higher speed."""
     lo = acc.accretion_core(w, d, v, t, p, dd)
     hi = acc.accretion_core(w, d, v * factor, t, p, dd)
     if lo["freezing_fraction"] == 1.0 and hi["freezing_fraction"] == 1.0:
