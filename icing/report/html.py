@@ -267,7 +267,7 @@ def _glance(assessment) -> list[str]:
               + f"<b>{_e(_fmt(s.get('total_icing_minutes'), 'icing_minutes', 'unknown'))} min</b>"),
              ("accretion", ("at least " if partial else "")
               + f"<b>{_e(_fmt(s.get('total_accretion_mm'), 'accretion_mm', 'unknown'))} mm</b>" + _e(body_txt)),
-             ("data", " ".join(f'{_data_badge(w)}&nbsp;{counts[w]}' for w in DATA_WORDS))]
+             ("data (segments)", " ".join(f'{_data_badge(w)}&nbsp;{counts[w]}' for w in DATA_WORDS if counts[w]))]
     best = s.get("best_altitude_plan_accretion_mm")
     cards.append(("at the best altitudes", f"<b>{_e(_fmt(best, 'accretion_mm'))} mm</b>"
                   if not _missing(best) else "n/a: a segment has no alternative with full data"))
