@@ -197,3 +197,18 @@ def test_drop_regional_sections_recorded_as_one_group_each():
     assert sections["61616"]["group"] == "61616 ZZ999 0615A INVNT OB 04"
     assert sections["62626"]["group"].endswith("MBL WND 27010")
     assert_allclose(_at(ds, 700, "temperature"), -8.1)
+
+
+def test_report_with_a_bad_day_group_is_recorded_on_its_station():
+    """A part whose day group cannot be read (YY 99 - 50 = day 49) is skipped; its record goes on the profile
+    of its own station (00102), not on the first profile of the file."""
+    other = PART_A.replace("00101", "00102")
+    a, b = temp.decode_temp(PART_A + "\n" + other + "\nTTBB 9900/ 00102 00012 04456 11950 04656=")
+    assert not any("day" in e["reason"] and "range" in e["reason"] for e in a.attrs["quality"])
+    assert any("out of range" in e["reason"] and e["line"] == 3 for e in b.attrs["quality"])
+
+
+def test_archive_separators_are_framing():
+    """Separator lines of stored bulletin files (****nnnnnnnnnn****) are framing, not stray text."""
+    (ds,) = temp.decode_temp("****0000012345****\n" + PART_A + "\n****0000012346****\n")
+    assert not [e for e in ds.attrs["quality"] if e["action"] == "skipped"]

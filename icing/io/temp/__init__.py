@@ -179,19 +179,33 @@ def decode_temp(text: str, source: str = "<string>", stations=None, reference_ti
         ds.attrs["temp_parts"] = asc["parts"]
         ds.attrs["wind_parts"] = asc["wind_parts"]
         profiles.append(ds)
-    nil_only = sorted({e["station"] for e in loose if e.get("station")})
     if missing:
         warnings.warn(f"{source}: station(s) not in the station list, position unknown: "
                       f"{', '.join(sorted(set(missing)))}", IcingWarning, stacklevel=2)
     if not profiles:
-        if nil_only and all(e.get("action") in ("nil", "note") for e in loose) and not orphans:
+        if loose and all(e.get("action") in ("nil", "note") for e in loose) and not orphans:
             raise SoundingFormatError("the file holds only NIL reports (no data)", file=source)
         reasons = "; ".join(orphans[:2] + [e["reason"] for e in loose[:3]]) or "no TEMP or PILOT report found"
         first = next((e for e in loose if e.get("line")), {})
         raise SoundingFormatError(f"no decodable TEMP ascent: {reasons}", file=source, line=first.get("line"),
                                   column=first.get("column"))
-    if orphans or nil_only:
-        what = orphans + [f"station {s}: NIL report(s) only" for s in nil_only]
+    # What belongs to a station (a NIL report, a report whose day group is bad) goes on that station's
+    # profile; a station with no profile is named in a warning, never put on another station's profile.
+    by_station = {}
+    for ds in profiles:
+        by_station.setdefault(ds.attrs["station"], ds)
+    unplaced = {}
+    for e in loose:
+        st = e.get("station")
+        if not st:
+            continue
+        ds = by_station.get(st)
+        if ds is not None:
+            ds.attrs["quality"] = list(ds.attrs["quality"]) + [dict(e, scope="station")]
+        else:
+            unplaced.setdefault(st, []).append(e["reason"])
+    what = orphans + [f"station {st}: {'; '.join(dict.fromkeys(r))}" for st, r in unplaced.items()]
+    if what:
         warnings.warn(f"{source}: no profile for {len(what)} ascent(s): {'; '.join(what)}", IcingWarning,
                       stacklevel=2)
     general = [dict(e, scope="file") for e in loose if not e.get("station")]

@@ -175,7 +175,7 @@ def _decode_arrays(text, reference_time):
     for rep in reports:
         levels = _decode_report(rep)
         if levels is False:
-            loose += rep.records
+            loose += [dict(e, station=rep.station) if rep.station else e for e in rep.records]
             continue
         key = (rep.station, rep.day, rep.hour)
         asc = ascents.get(key)

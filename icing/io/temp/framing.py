@@ -31,7 +31,7 @@ _BBB = re.compile(r"^(?:CC|RR|AA|PA|PB|PC)[A-Z]$")
 _HEADING = re.compile(r"(?m)^[ \t=]*[A-Z]{4}\d{2}[ \t]+[A-Z]{4}[ \t]+\d{6}\b([^\n]*)$")
 _PART_IN_LINE = re.compile(r"\b(?:TT|UU|XX|II|PP|QQ|EE)(?:AA|BB|CC|DD)\b")
 _FRAMING = re.compile(r"ZCZC(?:[ \t]*\d{1,5}\b)?|NNNN")
-_SEQUENCE = re.compile(r"(?m)^[ \t]*\d{3}[ \t]*$")
+_SEQUENCE = re.compile(r"(?m)^[ \t]*(?:\d{3}|\*{4}\d{4,12}\*{4})[ \t]*$")  # channel numbers, ****nnnn****
 # Control characters: SOH and ETX end a message (read as '='); the others are spaces.
 _CONTROL = {c: " " for c in range(32) if c != 10}
 _CONTROL.update({1: "=", 3: "=", 4: "="})
@@ -246,6 +246,7 @@ def section_one(rep):
             rep.records.append(skip(ln1, c1, f"{g1} {g2}", "section 1 is not YYGGId IIiii digits; report skipped",
                                     name))
             return None
+        rep.station = g2  # known even when the day group is bad, so its record goes to its own ascent
         dh = _day_hour(g1)
         if dh is None:
             rep.records.append(skip(ln1, c1, g1, f"day or hour of {g1} out of range; report skipped", name))
