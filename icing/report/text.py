@@ -58,8 +58,8 @@ def segment_table(assessment) -> str:
     for row in rows:
         out.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
     out.append("")
-    out.append(f"Total in icing: {s['total_icing_minutes']:.0f} min; total accretion {s['total_accretion_mm']:.1f} mm "
-               f"on the reference body; worst: "
+    out.append(f"Total in icing: {_num(s.get('total_icing_minutes'), 0)} min; total accretion "
+               f"{_num(s.get('total_accretion_mm'))} mm on the reference body; worst: "
                + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
                   s["worst_intensity"]) + ".")
     best = s.get("best_altitude_plan_accretion_mm")
@@ -67,7 +67,7 @@ def segment_table(assessment) -> str:
     span = f"{min(offs):+,.0f} to {max(offs):+,.0f} ft"
     if not is_missing(best):
         out.append(f"Flying each segment at its best altitude (of the offsets tried, {span}) would give "
-                   f"{best:.1f} mm.")
+                   f"{_num(best)} mm.")
     else:
         out.append(f"Best altitudes: 'best alt ft' and 'best mm' give, per segment, the offset ({span}) "
                    "with the least ice and complete data ('-' where none has complete data).")
@@ -82,8 +82,8 @@ def segment_table(assessment) -> str:
                    "model above covers; see the large drops column.")
     if "warm_surface_minutes" in seg and (seg["warm_surface_minutes"] > 0).any():
         mins = seg["warm_surface_minutes"].sum()
-        out.append(f"For {mins:.0f} of the minutes in supercooled liquid the air's heating of the leading edge keeps "
-                   "it above 0 degC: no ice grows there, but the water can run back and freeze behind it.")
+        out.append(f"For {_num(mins, 0)} of the minutes in supercooled liquid the air's heating of the leading edge "
+                   "keeps it above 0 degC: no ice grows there, but the water can run back and freeze behind it.")
     out.append(s["intensity_note"])
     out.append("")
     out.append(wrap)
