@@ -394,3 +394,16 @@ def test_cross_section_clock_time_and_flight_levels(assessment):
     clock = [lab.get_text() for lab in time_ax.get_xticklabels() if lab.get_text()]
     assert clock and all(len(c) == 5 and c[2] == ":" for c in clock)
     assert fl_ax._functions[0](np.array([10000.0]))[0] == 100.0
+
+
+def test_figures_take_the_new_segment_dtypes():
+    """datetime64[ns, UTC] times, ordered Categoricals and a segment without data: both route figures draw, and
+    the missing segment reads 'unknown (missing data)', never 'none'."""
+    from test_report_tables import typed_assessment
+
+    a = typed_assessment()
+    fig = plots.cross_section_figure(a)
+    texts = [t.get_text() for t in fig.axes[0].texts]
+    assert "2: unknown (missing data)" in texts
+    fig2 = plots.segment_chart_figure(a)
+    assert any("no data" in t.get_text() for ax in fig2.axes for t in ax.texts)

@@ -21,7 +21,7 @@ from matplotlib.patches import Patch
 
 from icing import CAUTION
 from icing.errors import IcingError
-from icing.report.tables import KT_PER_MS
+from icing.report.tables import KT_PER_MS, is_missing
 from icing.units import FT, NMI
 
 __all__ = ["PALETTE", "RATE_CMAP", "RATE_NORM", "LWC_CMAP", "FIGURE_SIZES", "DPI", "sounding_figure",
@@ -478,8 +478,9 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
                     fontweight="bold", color=PALETTE["waypoint"], annotation_clip=False)
     for k, row in enumerate(seg.itertuples()):
         mid = 0.5 * (wp[k] + wp[k + 1])
-        ax.text(mid, top_ft * 0.985, f"{row.segment}: {row.intensity}" + ("" if row.data == "ok" else
-                                                                          f" ({row.data} data)"),
+        word = "unknown" if is_missing(row.intensity) else str(row.intensity)
+        status = "missing" if is_missing(row.data) else str(row.data)
+        ax.text(mid, top_ft * 0.985, f"{row.segment}: {word}" + ("" if status == "ok" else f" ({status} data)"),
                 ha="center", va="top", fontsize=8, zorder=6,
                 bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "#999999", "alpha": 0.85})
     ax.set_xlabel("distance along the route (nm)")
@@ -556,7 +557,7 @@ def segment_chart_figure(assessment) -> Figure:
     alts = assessment.alternatives
     n = len(seg)
     idx = np.arange(n)
-    data = seg["data"].to_numpy()
+    data = seg["data"].astype(object).where(seg["data"].notna(), "missing").to_numpy()
     best_alt = seg["best_altitude_ft"].to_numpy(float)
     plan_alt = np.array([_plan_altitude(alts, int(k)) for k in seg["segment"]])
     alt_minutes = len(alts) > 0 and "icing_minutes" in alts
