@@ -205,3 +205,11 @@ def test_mixed_forms_in_one_bulletin_give_one_profile_each():
     assert [p.attrs["temp_form"] for p in profiles] == ["TEMP", "TEMP SHIP", "TEMP DROP"]
     bad = [[e for e in p.attrs["quality"] if "0777" in e["reason"]] for p in profiles]
     assert [len(b) for b in bad] == [0, 1, 0]  # DD 53 (code table 0777: not used) only in the ship's report
+
+
+def test_ships_without_call_sign_are_told_apart_by_position():
+    """FM 36: a ship that gives "SHIP" for D....D (no call sign) is one ascent per position, so two such
+    ships at the same hour are not merged into one profile."""
+    body = "99012 04456 27010 00094 04256 27512 92728 02057 28015 85456 03462 28520 70065 08160 29030="
+    a, b = temp.decode_temp(f"UUAA SHIP 65001 99334 50217 ///31 {body}\nUUAA SHIP 65001 99412 50217 ///11 {body}")
+    assert (a.attrs["latitude"], b.attrs["latitude"]) == (-33.4, -41.2)

@@ -299,7 +299,7 @@ def section_one(rep):
             rep.records.append(skip(ln, col, tok, f"station elevation h0h0h0h0im: {exc}", name))
             if not tok.startswith("99"):
                 i += 1
-    if ic is not None:
+    if ic is not None and texts[ic] != "SHIP":  # "SHIP" stands for a call sign not given
         rep.station = texts[ic]
     else:
         rep.station = f"{rep.kind}{texts[ip][2:]}{texts[ip + 1]}"  # a drop has no call sign: its position
