@@ -189,7 +189,8 @@ def test_pilot_only_ascent_is_named_in_a_warning_not_put_on_another_profile():
 def test_pilot_file_is_sniffed(tmp_path):
     """A file that opens with a PILOT or ship part is taken for TEMP/PILOT text by the sniffer."""
     for text in ("PPBB 6500/ 00101 90012 27010 27515 28020=\n" + PART_A,
-                 "UUAA ZQXA7 65001 99334 50217 ///31 " + BODY_A):
+                 "UUAA ZQXA7 65001 99334 50217 ///31 " + BODY_A, "uuaa 65001 zqxa7 99334 50217 ///31 " + BODY_A,
+                 "XXAA 65001 99241 70708 ///40 " + BODY_A, "IIAA MOB9 65007 99600 10055 ///05 02031 " + BODY_A):
         path = tmp_path / "x.txt"
         path.write_text(text)
         assert reader_for(path).FORMAT == "temp"

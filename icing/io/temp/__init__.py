@@ -54,7 +54,8 @@ __all__ = ["FORMAT", "sniff", "read", "decode_temp", "decode_temp_arrays", "read
 
 FORMAT = "temp"
 _SNIFF = re.compile(rb"(?:^|[\s=\x01-\x1f])(?:TT|UU|XX|II|PP|QQ|EE)(?:AA|BB|CC|DD)\s+(?:(?:CC|RR|AA)[A-Z]\s+)?"
-                    rb"(?:[0-9/]{5}\s+[0-9]{5}|[0-9A-Z]{3,9}\s+[0-9/]{5}\s+99[0-9]{3}|[0-9/]{5}\s+99[0-9]{3})",
+                    rb"(?:[0-9/]{5}\s+[0-9]{5}|[0-9A-Z]{3,9}\s+[0-9/]{5}\s+99[0-9]{3}|[0-9/]{5}\s+99[0-9]{3}"
+                    rb"|[0-9/]{5}\s+[0-9A-Z]{3,9}\s+99[0-9]{3})",
                     re.IGNORECASE)
 _LAND_FORMS = ("TEMP", "PILOT")
 
