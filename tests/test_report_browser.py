@@ -15,6 +15,7 @@ from __future__ import annotations
 import base64
 import json
 import os
+import select
 import shutil
 import subprocess
 import sys
@@ -27,6 +28,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 BROWSERS = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bin/google-chrome")
 WIDTHS = {"desktop": (1280, 800), "phone": (390, 844)}
+TIMEOUT_S = 120  # for one reply of the browser (a page load included)
 A4_LANDSCAPE_PX = 1047  # 297 mm - 2 x 10 mm margins (the page's @page rule) at 96 px per inch (CSS 2.1: 1in = 96px)
 
 
@@ -69,6 +71,9 @@ class Browser:
                 msg = json.loads(raw)
                 if pred(msg):
                     return msg
+            ready, _, _ = select.select([self._r], [], [], TIMEOUT_S)
+            if not ready:
+                raise TimeoutError(f"no reply from the browser in {TIMEOUT_S} s")
             chunk = os.read(self._r, 1 << 20)
             if not chunk:
                 raise RuntimeError("the browser closed the DevTools pipe")
