@@ -19,6 +19,7 @@ each grid box at its cruise true airspeed: a screening field, not a forecast. AD
 from __future__ import annotations
 
 import contextlib
+import functools
 import json
 import sys
 
@@ -27,8 +28,9 @@ import xarray as xr
 
 from icing import CAUTION
 from icing.errors import ConfigError, IcingError
-from icing.physics import thermo
+from icing.physics import accretion, thermo
 from icing.physics.diagnose import DEFAULT_COLD_LIMIT_C, FIELD_ATTRS, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
+from icing.physics.jit import jitable
 from icing.units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
@@ -66,57 +68,115 @@ _ATTRS = {
 
 # --- the numpy core: one chunk of columns -----------------------------------------------------------------
 
+@jitable
+def column_summary(t, z, supercooled, levels):
+    """Summaries of one column (levels with pressure decreasing): the 0 degC crossings into ``levels`` (heights
+    in m, lowest first, linear in height between the neighbouring levels with a temperature; NaN beyond the
+    crossings found), and returns (lowest freezing level: the lowest level's height where it is already at or
+    below 0 degC, else the first crossing; height of the lowest and of the highest supercooled level, NaN if
+    none). ``t`` in degC (a measured temperature counts without humidity), ``z`` in m."""
+    for c in range(levels.size):
+        levels[c] = np.nan
+    found = 0
+    have_prev = False
+    t_prev = 0.0
+    z_prev = 0.0
+    t_low = np.nan
+    z_low = np.nan
+    base = np.inf
+    top = -np.inf
+    for k in range(t.size):
+        if supercooled[k] and np.isfinite(z[k]):
+            base = min(base, z[k])
+            top = max(top, z[k])
+        if not (np.isfinite(t[k]) and np.isfinite(z[k])):
+            continue
+        if not have_prev:
+            t_low, z_low = t[k], z[k]
+        elif (t_prev > 0) != (t[k] > 0):
+            if found < levels.size:
+                levels[found] = z_prev + t_prev / (t_prev - t[k]) * (z[k] - z_prev)
+            found += 1
+        have_prev = True
+        t_prev, z_prev = t[k], z[k]
+    lowest = z_low if t_low <= 0.0 else levels[0]
+    if base > top:
+        return lowest, np.nan, np.nan
+    return lowest, base, top
+
+
+def _summary_rows(t, z, supercooled, levels, lowest, base, top):
+    for i in range(t.shape[0]):
+        lowest[i], base[i], top[i] = column_summary(t[i], z[i], supercooled[i], levels[i])
+
+
+@functools.lru_cache(maxsize=1)
+def _compiled_summaries():
+    from icing.physics.jit import jit
+
+    return jit(_summary_rows)
+
+
 def column_summaries(temperature, height, supercooled, valid):
     """2-D summaries of columns (..., level), pressure decreasing along the level axis (plain SI).
 
     Temperature in K, height in m; ``valid`` is unused for the freezing levels (a measured temperature counts
     without humidity) and kept for the signature. Returns ``freezing_level_m`` (lowest 0 degC crossing, linear
     in height between the levels with a temperature that bracket it; the lowest such level's height where it
-    is already at or below 273.15 K), ``freezing_levels`` (...,
-    N_FREEZING_LEVELS: every crossing, up or down, lowest first, NaN beyond), ``supercooled_base_m`` and
-    ``supercooled_top_m`` (heights of the lowest and highest supercooled levels, NaN if none).
+    is already at or below 273.15 K), ``freezing_levels`` (..., N_FREEZING_LEVELS: every crossing, up or
+    down, lowest first, NaN beyond), ``supercooled_base_m`` and ``supercooled_top_m`` (heights of the lowest
+    and highest supercooled levels, NaN if none): :func:`column_summary` on every column.
     """
-    t = np.asarray(temperature, dtype=float) - thermo.T0  # a measured temperature counts even without humidity
-    z = np.asarray(height, dtype=float)
-    fin = np.isfinite(t) & np.isfinite(z)
-    if not fin.all():  # close up the missing levels (crossings are found between neighbouring valid levels)
-        order = np.argsort(~fin, axis=-1, kind="stable")
-        t = np.where(np.take_along_axis(fin, order, -1), np.take_along_axis(t, order, -1), np.nan)
-        z = np.where(np.take_along_axis(fin, order, -1), np.take_along_axis(z, order, -1), np.nan)
-        sc_z = np.where(np.asarray(supercooled, dtype=bool) & np.isfinite(height), height, np.nan)
-    else:
-        sc_z = np.where(supercooled, z, np.nan)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t0, t1 = t[..., :-1], t[..., 1:]
-        cross = np.isfinite(t0) & np.isfinite(t1) & ((t0 > 0) != (t1 > 0))
-        frac = np.where(cross, t0 / np.where(cross, t0 - t1, 1.0), 0.0)
-        zc = z[..., :-1] + frac * (z[..., 1:] - z[..., :-1])
-    n_cross = np.cumsum(cross, axis=-1)
-    lead = t.shape[:-1]
-    levels = np.full(lead + (N_FREEZING_LEVELS,), np.nan)
-    for c in range(N_FREEZING_LEVELS):
-        hit = cross & (n_cross == c + 1)
-        k = np.argmax(hit, axis=-1)[..., None]
-        levels[..., c] = np.where(hit.any(axis=-1), np.take_along_axis(zc, k, axis=-1)[..., 0], np.nan)
-    first = np.argmax(np.isfinite(t), axis=-1)[..., None]
-    t_low = np.take_along_axis(t, first, axis=-1)[..., 0]
-    z_low = np.take_along_axis(z, first, axis=-1)[..., 0]
-    lowest = np.where(t_low <= 0.0, z_low, levels[..., 0])
-    sc = np.isfinite(sc_z)
-    with np.errstate(invalid="ignore"):
-        base = np.where(sc.any(axis=-1), np.min(np.where(sc, sc_z, np.inf), axis=-1), np.nan)
-        top = np.where(sc.any(axis=-1), np.max(np.where(sc, sc_z, -np.inf), axis=-1), np.nan)
-    return {"freezing_level_m": lowest, "freezing_levels": levels, "supercooled_base_m": base,
-            "supercooled_top_m": top}
+    t = np.asarray(temperature, dtype=float)
+    shape = t.shape
+    n = shape[-1]
+    rows = lambda a, dtype=float: np.ascontiguousarray(np.broadcast_to(np.asarray(a, dtype=dtype), shape)  # noqa: E731
+                                                       ).reshape(-1, n)
+    npro = rows(t).shape[0]
+    levels = np.empty((npro, N_FREEZING_LEVELS))
+    lowest, base, top = np.empty(npro), np.empty(npro), np.empty(npro)
+    _compiled_summaries()(rows(t) - thermo.T0, rows(height), rows(supercooled, bool), levels, lowest, base, top)
+    lead = shape[:-1]
+    return {"freezing_level_m": lowest.reshape(lead), "freezing_levels": levels.reshape(lead + (N_FREEZING_LEVELS,)),
+            "supercooled_base_m": base.reshape(lead), "supercooled_top_m": top.reshape(lead)}
 
 
-@contextlib.contextmanager
-def _quiet_nan():
-    import warnings
+@jitable
+def column_potential(rate, valid, code):
+    """Intensity codes of the accretion potential per level into ``code``
+    (:func:`icing.physics.accretion.intensity_code_of`; ``rate`` in m/s, NaN where unknown), and per column the
+    worst code and the largest known rate (mm/h). The worst code is -1 (unknown) where no level is valid, or
+    where a level above the first valid one is unknown and nothing known reaches trace: unknown is never
+    read as none."""
+    worst = -1
+    any_valid = False
+    unknown_aloft = False
+    largest = np.nan
+    for k in range(rate.size):
+        c = accretion.intensity_code_of(rate[k])
+        code[k] = c
+        worst = max(worst, c)
+        if valid[k]:
+            any_valid = True
+            if rate[k] == rate[k] and not (largest >= rate[k]):
+                largest = rate[k]
+        elif any_valid:
+            unknown_aloft = True
+    if (not any_valid) or (unknown_aloft and worst <= 0):
+        worst = -1
+    return worst, largest * 1000.0 * 3600.0
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        yield
+
+def _potential_rows(rate, valid, code, worst, max_rate):
+    for i in range(rate.shape[0]):
+        worst[i], max_rate[i] = column_potential(rate[i], valid[i], code[i])
+
+
+@functools.lru_cache(maxsize=1)
+def _compiled_potential():
+    from icing.physics.jit import jit
+
+    return jit(_potential_rows)
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
@@ -149,7 +209,7 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
     if airspeed is None:
         return d
-    from icing.physics.accretion import accretion_core, intensity_code
+    from icing.physics.accretion import accretion_core
 
     valid = d["valid"]
     icing = d["supercooled"] & valid & (d["lwc"] > 0)
@@ -162,14 +222,12 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
                               t.ravel()[idx], p, float(body_diameter))
         rate.ravel()[idx] = core["thickness_rate"]
         ice.ravel()[idx] = core["ice_type"]
-    code = intensity_code(rate)
-    first = np.argmax(valid, axis=-1)[..., None]
-    above_first = np.arange(shape[-1]) >= first
-    unknown_aloft = np.any(~valid & above_first, axis=-1)
-    worst = code.max(axis=-1)
-    worst = np.where(~valid.any(axis=-1) | (unknown_aloft & (worst <= 0)), -1, worst).astype(np.int8)
-    with _quiet_nan():
-        max_rate = np.nanmax(np.where(valid, rate, np.nan), axis=-1) * 1000.0 * 3600.0
+    n = shape[-1]
+    code = np.empty(shape, np.int8)
+    worst = np.empty(shape[:-1], np.int8)
+    max_rate = np.empty(shape[:-1])
+    _compiled_potential()(rate.reshape(-1, n), valid.reshape(-1, n), code.reshape(-1, n), worst.reshape(-1),
+                          max_rate.reshape(-1))
     rate *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
     rate *= 3600.0
     d.update({"potential_rate": rate, "potential_intensity": code, "ice_type": ice,

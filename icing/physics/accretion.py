@@ -34,6 +34,7 @@ from __future__ import annotations
 import numpy as np
 
 from icing.errors import ConfigError
+from icing.physics.jit import jitable
 from icing.physics.thermo import (
     CP_D,
     EPSILON,
@@ -334,12 +335,19 @@ def intensity_code(thickness_rate):
 
     0 none (rate 0), 1 trace (< 1/4 in/h), 2 light (1/4 to < 1 in/h), 3 moderate (1 to 3 in/h), 4 severe
     (> 3 in/h), -1 unknown (NaN or negative). Thresholds: US Air Weather Service forecasters' guide (1980),
-    as quoted in later handbooks (primary text not seen). See :data:`INTENSITY_NOTE`.
+    as quoted in later handbooks (primary text not seen). See :data:`INTENSITY_NOTE`. Arrays in, arrays out;
+    :func:`intensity_code_of` is the same for one rate (compiled into the grid kernels).
     """
-    r = np.asarray(thickness_rate, dtype=float) / _IN_PER_H
+    return np.asarray(intensity_code_of(np.asarray(thickness_rate, dtype=float)), dtype=np.int8)
+
+
+@jitable
+def intensity_code_of(thickness_rate):
+    """:func:`intensity_code` as arithmetic on the rate (m/s): the count of thresholds reached, -1 unknown."""
+    r = thickness_rate / _IN_PER_H
     t1, t2, t3 = INTENSITY_THRESHOLDS_IN_PER_H
-    code = np.select([r > t3, r >= t2, r >= t1, r > 0.0, r == 0.0], [4, 3, 2, 1, 0], default=-1)
-    return code.astype(np.int8)
+    known = r >= 0.0
+    return known * ((r > 0.0) * 1 + (r >= t1) + (r >= t2) + (r > t3)) - (1 - known)
 
 
 # -------------------------------------------------------------------------------------------------- the core
