@@ -214,3 +214,30 @@ def test_ships_without_call_sign_are_told_apart_by_position():
     body = "99012 04456 27010 00094 04256 27512 92728 02057 28015 85456 03462 28520 70065 08160 29030="
     a, b = temp.decode_temp(f"UUAA SHIP 65001 99334 50217 ///31 {body}\nUUAA SHIP 65001 99412 50217 ///11 {body}")
     assert (a.attrs["latitude"], b.attrs["latitude"]) == (-33.4, -41.2)
+
+
+PART_C = ("TTCC 65001 00101 70860 61962 29040 50075 59768 28535 30390 57560 27030 20650 55964 26025 10100 "
+          "51166 25020 88999 77999=")
+
+
+def test_pilot_altitudes_of_100_units_and_more():
+    """PPDD ``1tnu1u2u3``: altitudes of 100 units and more (100 + 10 tn + u; common practice of decoders of
+    real bulletins, from memory): 1000/ is 100 x 300 m = 30 km, which lies between the Part C surfaces 20 hPa
+    (26500 m, 20650) and 10 hPa (31000 m, 10100) with no level between them, so its pressure is the
+    log-pressure interpolation between those two, worked here."""
+    ds = _one(PART_A + "\n" + PART_C + "\nPPDD 6500/ 00101 1000/ 27020=")
+    i = np.flatnonzero(np.isclose(ds["height"].values, 30000.0))
+    assert i.size == 1
+    p_expected = np.exp(np.interp(30000.0, [26500.0, 31000.0], np.log([20.0, 10.0])))
+    assert_allclose(ds["pressure"].values[i[0]], p_expected, atol=0.05)  # pressure kept to 0.1 hPa
+    assert_allclose(ds["wind_speed"].values[i[0]], 20 * KNOT)
+
+
+def test_altitude_unit_of_1000_feet():
+    """Where the PILOT altitude unit is taken as 1000 ft (304.8 m, exact foot), ``altitude_unit=304.8`` puts
+    90346's winds at 914.4, 1219.2 and 1828.8 m; a unit that is no length is a typed error."""
+    ds = _one(PART_A + "\nPPBB 6500/ 00101 90346 28525 29030 30040=", altitude_unit=304.8)
+    for alt in (3 * 304.8, 4 * 304.8, 6 * 304.8):
+        assert np.isclose(ds["height"].values, alt).sum() == 1
+    with pytest.raises(SoundingFormatError, match="altitude_unit"):
+        temp.decode_temp(PART_A, altitude_unit="ft")

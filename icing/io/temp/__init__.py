@@ -46,6 +46,7 @@ from icing.io.temp.codes import (
     decode_temperature,
     decode_wind,
 )
+from icing.io.temp.pilot import ALTITUDE_UNIT_M
 from icing.profile import build_profile
 
 __all__ = ["FORMAT", "sniff", "read", "decode_temp", "decode_temp_arrays", "read_stations",
@@ -108,7 +109,8 @@ def _position(asc, stations, quality, missing):
     return lat, lon, (e if np.isfinite(e) else elev)
 
 
-def decode_temp(text: str, source: str = "<string>", stations=None, reference_time=None) -> list:
+def decode_temp(text: str, source: str = "<string>", stations=None, reference_time=None,
+                altitude_unit=ALTITUDE_UNIT_M) -> list:
     """Decode TEMP and PILOT text (any number of reports of any form, parts A-D, with GTS framing) into profiles.
 
     Parameters
@@ -122,6 +124,9 @@ def decode_temp(text: str, source: str = "<string>", stations=None, reference_ti
         elevation anchors the surface. Ship, drop and mobile reports carry their own position.
     reference_time : datetime-like, optional
         A time in (or within a day after) the month of the ascents; TEMP itself gives day and hour only.
+    altitude_unit : float
+        Unit (m) of the altitudes of PILOT winds by altitude (9tnu1u2u3): 300 m after WMO-No. 306 FM 32
+        (from memory); 304.8 for feeds that count it as 1000 ft.
 
     Returns
     -------
@@ -142,7 +147,10 @@ def decode_temp(text: str, source: str = "<string>", stations=None, reference_ti
     """
     if stations is not None and not hasattr(stations, "get"):
         stations = read_stations(stations)
-    ascents, loose = decode_temp_arrays(text, source, reference_time)
+    if not (isinstance(altitude_unit, int | float) and 1.0 <= altitude_unit <= 2000.0):
+        raise SoundingFormatError(f"altitude_unit {altitude_unit!r} is not a length in metres (300 or 304.8)",
+                                  file=source)
+    ascents, loose = decode_temp_arrays(text, source, reference_time, altitude_unit)
     profiles, orphans, missing = [], [], []
     for asc in ascents:
         quality = list(asc["quality"])
@@ -226,7 +234,7 @@ def sniff(head: bytes, path) -> bool:
     return b"\x00" not in head and _SNIFF.search(head) is not None
 
 
-def read(path, stations=None, reference_time=None, **options) -> list:
+def read(path, stations=None, reference_time=None, altitude_unit=ALTITUDE_UNIT_M, **options) -> list:
     """Every ascent in a TEMP/PILOT file as a canonical profile (see :func:`decode_temp`).
 
     A ``stations.csv`` next to the file is used when ``stations`` is not given.
@@ -238,4 +246,5 @@ def read(path, stations=None, reference_time=None, **options) -> list:
     text = raw.decode("latin-1")
     if stations is None and (path.parent / "stations.csv").exists():
         stations = path.parent / "stations.csv"
-    return decode_temp(text, source=str(path), stations=stations, reference_time=reference_time)
+    return decode_temp(text, source=str(path), stations=stations, reference_time=reference_time,
+                       altitude_unit=altitude_unit)

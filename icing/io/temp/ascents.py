@@ -12,7 +12,7 @@ from icing.io.temp.codes import INFO
 from icing.io.temp.framing import FORM_NAMES, KINDS, clean_groups, resolve_columns, section_one, skip, split_reports
 from icing.io.temp.framing import tokens as text_tokens
 from icing.io.temp.levels import Levels
-from icing.io.temp.pilot import decode_pilot_heights, decode_pilot_standard
+from icing.io.temp.pilot import ALTITUDE_UNIT_M, decode_pilot_heights, decode_pilot_standard
 from icing.io.temp.significant import decode_significant, skip_sections
 from icing.io.temp.standard import decode_standard
 
@@ -23,7 +23,7 @@ _PART_ORDER = {"A": 0, "C": 1, "B": 2, "D": 3}
 _COLUMN_NAMES = ("pressure", "height", "temperature", "dewpoint", "wind_direction", "wind_speed")
 
 
-def _decode_report(rep):
+def _decode_report(rep, altitude_unit):
     """Decode one part into its Levels (None for NIL), or False when section 1 cannot be read (recorded)."""
     name = rep.ident
     start = section_one(rep)
@@ -49,7 +49,7 @@ def _decode_report(rep):
     elif rep.part in ("A", "C"):
         i = decode_pilot_standard(rep, body, knots, levels)
     else:
-        i = decode_pilot_heights(rep, body, knots, levels)
+        i = decode_pilot_heights(rep, body, knots, levels, altitude_unit)
     skip_sections(rep, body, i)
     return levels
 
@@ -134,7 +134,7 @@ def _choose_reports(reports):
     return [best], records
 
 
-def decode_temp_arrays(text: str, source: str = "<string>", reference_time=None):
+def decode_temp_arrays(text: str, source: str = "<string>", reference_time=None, altitude_unit=ALTITUDE_UNIT_M):
     """Decode TEMP and PILOT text into merged ascents of plain arrays (the fast path, no Dataset built).
 
     Returns ``(ascents, records)``: ``ascents`` is a list of dicts with keys ``station``, ``day``, ``hour``,
@@ -148,7 +148,8 @@ def decode_temp_arrays(text: str, source: str = "<string>", reference_time=None)
     relation), ``quality`` (the skipped groups of its parts) and ``n_reports``; ``records`` lists what
     belongs to no ascent (undecodable reports, stray text). Levels are sorted by decreasing pressure, one
     per pressure: a level repeated in several parts keeps the first finite value of each variable in the
-    order A, C, B, D (conflicts recorded).
+    order A, C, B, D (conflicts recorded). ``altitude_unit`` is the unit (m) of the PILOT altitudes
+    9tnu1u2u3 (300 m in WMO-No. 306 FM 32, from memory; 304.8 where the practice is 1000 ft).
 
     The cyclic garbage collector is paused meanwhile: decoding makes many small tuples and no cycles, and
     the collector would otherwise walk them again and again.
@@ -156,13 +157,13 @@ def decode_temp_arrays(text: str, source: str = "<string>", reference_time=None)
     enabled = gc.isenabled()
     gc.disable()
     try:
-        return _decode_arrays(text, reference_time)
+        return _decode_arrays(text, reference_time, float(altitude_unit))
     finally:
         if enabled:
             gc.enable()
 
 
-def _decode_arrays(text, reference_time):
+def _decode_arrays(text, reference_time, altitude_unit):
     if len(INFO) > 200_000:  # the cache of group readings must not grow without bound
         INFO.clear()
     toks, lines, headings = text_tokens(text)
@@ -173,7 +174,7 @@ def _decode_arrays(text, reference_time):
                           "text after the last report"))
     ascents = {}
     for rep in reports:
-        levels = _decode_report(rep)
+        levels = _decode_report(rep, altitude_unit)
         if levels is False:
             loose += [dict(e, station=rep.station) if rep.station else e for e in rep.records]
             continue

@@ -7,8 +7,10 @@ height (PPBB, PPDD beside TTAA/TTBB of the same ascent). WMO-No. 306, from memor
 * Sections 3 and 4: maximum wind ``77PmPmPm``/``66PmPmPm`` ddfff (4vbvbvava) as in TEMP, or by altitude
   ``7HmHmHmHm`` (not used here, recorded).
 * Parts B and D, section 4: ``9tnu1u2u3`` then one ddfff for each of up to three altitudes, altitude =
-  (10 tn + u) x 300 m (regulation 32.3.1, from memory), altitude 0 being the station's surface; or
-  ``21212`` nnPPP ddfff pairs by pressure as in TEMP.
+  (10 tn + u) x 300 m above sea level (regulation 32.3.1, from memory), altitude 0 being the station's
+  surface; ``1tnu1u2u3`` for altitudes of 100 units and more (100 + 10 tn + u; as decoders of real
+  bulletins read it, common practice); or ``21212`` nnPPP ddfff pairs by pressure as in TEMP. Some
+  national practice counts the unit as 1000 ft (304.8 m): pass ``altitude_unit=304.8`` to the reader.
 """
 
 from __future__ import annotations
@@ -81,7 +83,7 @@ def decode_pilot_standard(rep, body, knots, levels):
     return i
 
 
-def decode_pilot_heights(rep, body, knots, levels):
+def decode_pilot_heights(rep, body, knots, levels, unit=ALTITUDE_UNIT_M):
     """Section 4 of PILOT Part B or D (winds at altitudes, and 21212 winds by pressure); the index after it."""
     name = rep.ident
     n, i = len(body), 0
@@ -93,27 +95,27 @@ def decode_pilot_heights(rep, body, knots, levels):
             continue
         if info[tok][10]:
             break
-        if tok[0] == "9":
+        if tok[0] in "91":
+            base = 100 if tok[0] == "1" else 0
             tn, units = tok[1], [u for u in tok[2:] if u != "/"]
             if not tn.isdigit() or not all(u.isdigit() for u in units) or not units:
                 rep.records.append(skip(ln, col, tok, "altitude group 9tnu1u2u3 not decodable; its winds are "
                                         "skipped", name))
                 i += 1
-                while i < n and body[i][0][0] != "9" and not info[body[i][0]][10]:
+                while i < n and body[i][0][0] not in "91" and not info[body[i][0]][10]:
                     rep.records.append(skip(body[i][1], body[i][2], body[i][0], "wind of an undecodable "
                                             "altitude group", name))
                     i += 1
                 continue
             i += 1
             for u in units:
-                alt = (10 * int(tn) + int(u))
-                if i >= n or not info[body[i][0]][9] or body[i][0][0] == "9" and body[i][0][1:].isdigit() \
-                        and int(body[i][0][:2]) * 10 > 360:
+                alt = base + 10 * int(tn) + int(u)
+                if i >= n or not info[body[i][0]][9]:
                     rep.records.append(skip(ln, col, tok, f"altitude group announces {len(units)} winds, fewer "
                                             "found", name))
                     break
-                wd, ws = wind_group(*body[i], rep, name, knots, f"wind at altitude {alt * ALTITUDE_UNIT_M:g} m")
-                z = None if alt == 0 else alt * ALTITUDE_UNIT_M
+                wd, ws = wind_group(*body[i], rep, name, knots, f"wind at altitude {alt * unit:g} m")
+                z = None if alt == 0 else alt * unit
                 levels.by_height.append((z, wd, ws, body[i][1], body[i][2]))
                 i += 1
             continue
