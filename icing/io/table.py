@@ -1,4 +1,4 @@
-"""Delimited-text soundings (CSV, TSV, semicolon) in the project's own spreadsheet layout.
+"""Delimited-text soundings (CSV, TSV, semicolon, whitespace) in the project's own spreadsheet layout.
 
 Layout (documented in the README)::
 
@@ -12,198 +12,485 @@ Layout (documented in the README)::
     1013,12,4.2,3.1,220,15
 
 Comment lines start with ``#``; ``# key: value`` lines give metadata. The header names each column as
-``variable_unit`` (``variable [unit]`` and ``variable (unit)`` work too). Empty cells, ``NA``, ``nan`` and
-``-9999`` are missing. Unknown columns are reported in the quality record, never silently used or dropped.
+``variable_unit``, ``variable [unit]``, ``variable (unit)`` or ``variable unit``; names may contain spaces
+(``dew point temperature_C``). A header without units takes them from a second header row of units only, or
+from the ``units=`` argument (a mapping variable -> unit). Empty cells, ``NA``, ``nan`` and ``-9999`` are
+missing. Unknown columns are reported in the quality record, never silently used or dropped.
+
+Text as users write it: a UTF-8 byte-order mark, CRLF or CR line ends, UTF-16 with a byte-order mark, Latin-1
+text (with a note), a Unicode minus sign, a decimal comma in semicolon- or tab-separated files, and stray
+control characters (removed, with a note) all read. The file is read line by line into typed arrays, so memory
+stays near the size of the numbers (8 bytes a value), not of the text.
 """
 
 from __future__ import annotations
 
+import codecs
 import csv
 import io
 import re
+from array import array
 
 import numpy as np
+import pandas as pd
 
 from icing.errors import ProfileQualityError, SoundingFormatError, UnitError
-from icing.io import file_bytes
-from icing.profile import VARIABLES, build_profile, check_temperature_unit
+from icing.profile import ELEVATION_RANGE, VARIABLES, build_profile, check_pressure_unit, check_temperature_unit
 from icing.units import Quantity, parse_unit
+
+__all__ = ["FORMAT", "sniff", "read", "write"]
 
 FORMAT = "table"
 
 _NAMES = {
-    "pressure": "pressure", "pres": "pressure", "p": "pressure", "press": "pressure",
+    "pressure": "pressure", "pres": "pressure", "p": "pressure", "press": "pressure", "air_pressure": "pressure",
+    "pressure_level": "pressure", "prs": "pressure",
     "height": "height", "hght": "height", "altitude": "height", "z": "height", "geopotential_height": "height",
+    "gph": "height", "gpm": "height", "geopotential_altitude": "height", "height_msl": "height",
     "temperature": "temperature", "temp": "temperature", "t": "temperature", "air_temperature": "temperature",
+    "air_temp": "temperature", "tmp": "temperature", "tt": "temperature",
     "dewpoint": "dewpoint", "dew_point": "dewpoint", "dwpt": "dewpoint", "td": "dewpoint",
-    "dewpoint_temperature": "dewpoint",
+    "dewpoint_temperature": "dewpoint", "dew_point_temperature": "dewpoint", "dewpt": "dewpoint",
+    "dew_pt": "dewpoint", "dew": "dewpoint",
     "relative_humidity": "relative_humidity", "rh": "relative_humidity", "relh": "relative_humidity",
-    "humidity": "relative_humidity",
+    "humidity": "relative_humidity", "rel_humidity": "relative_humidity", "hur": "relative_humidity",
     "wind_speed": "wind_speed", "speed": "wind_speed", "sknt": "wind_speed", "wspd": "wind_speed",
+    "windspeed": "wind_speed", "ff": "wind_speed",
     "wind_direction": "wind_direction", "direction": "wind_direction", "drct": "wind_direction",
-    "wdir": "wind_direction",
+    "wdir": "wind_direction", "wind_from_direction": "wind_direction", "winddirection": "wind_direction",
+    "dd": "wind_direction",
     "cloud_liquid": "cloud_liquid", "lwc": "cloud_liquid", "cloud_water": "cloud_liquid",
+    "cloud_liquid_water": "cloud_liquid",
 }
-_MISSING = {"", "na", "nan", "n/a", "-9999", "-9999.0", "//", "///", "-"}
+_MISSING = {"", "na", "nan", "n/a", "-9999", "-9999.0", "-9999.9", "-99999", "//", "///", "-", "--", "null",
+            "none", "missing", "m"}
 _META_FLOAT = {"latitude": "latitude", "lat": "latitude", "longitude": "longitude", "lon": "longitude",
-               "elevation_m": "elevation", "elevation": "elevation"}
+               "elevation_m": "elevation", "elevation": "elevation", "elev": "elevation"}
+_META_RANGE = {"latitude": (-90.0, 90.0), "longitude": (-180.0, 360.0), "elevation": ELEVATION_RANGE}
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\x85\u2028\u2029\ufeff]")
+_MINUS = str.maketrans({"\u2212": "-", "\u2013": "-", "\u00a0": " ", "\u202f": " "})
+_DECIMAL_COMMA = re.compile(r"^[-+]?\d*,\d+(?:[eE][-+]?\d+)?$")
+MAX_CELL = 64  # characters: a longer number cell is corrupt (doubles carry 17 significant digits)
+_CHUNK = 1 << 16  # values per array growth step (the arrays grow; nothing is held as text)
+
+
+def _decode_head(head: bytes):
+    """Text of the start of a file in the encoding the reader will use, or None for binary data."""
+    if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        return head.decode("utf-16", errors="ignore")
+    if b"\x00" in head:
+        return None
+    try:
+        return head.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        if exc.start >= len(head) - 3:  # a multi-byte character cut by the end of the head
+            return head[: exc.start].decode("utf-8-sig")
+        return head.decode("latin-1")
+
+
+def _split(line: str, delim):
+    if delim is None:
+        return line.split()
+    if '"' in line:
+        try:
+            return next(csv.reader([line], delimiter=delim))
+        except (csv.Error, StopIteration):
+            return line.split(delim)
+    return line.split(delim)
+
+
+def _delimiter(line: str):
+    counts = {d: line.count(d) for d in ",;\t"}
+    best = max(counts, key=counts.get)
+    return best if counts[best] else None
 
 
 def sniff(head: bytes, path) -> bool:
     """A text file whose first non-comment line names a pressure column and at least one other."""
-    if b"\x00" in head:
+    text = _decode_head(head)
+    if text is None:
         return False
-    try:
-        text = head.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        return False
-    for line in text.splitlines():
-        s = line.strip()
+    for line in text.split("\n"):
+        s = _CONTROL.sub("", line).strip()
         if not s or s.startswith("#"):
             continue
-        cells = [c.strip().lower() for c in re.split(r"[,;\t]", s)]
+        cells = [c.strip().lower() for c in _split(s, _delimiter(s))]
         return len(cells) >= 2 and any(_split_header(c)[0] == "pressure" for c in cells)
     return False
 
 
 def _split_header(cell: str):
     """(canonical variable or None, unit text or None) from a header cell."""
-    c = cell.strip()
+    c = cell.strip().translate(_MINUS).strip()
     m = re.match(r"^(.*?)\s*[\[(]\s*(.*?)\s*[\])]\s*$", c)
     if m:
         name, unit = m.group(1), m.group(2)
     else:
         name, unit = c, None
-    key = name.strip().lower().replace(" ", "_").replace("-", "_")
+    key = re.sub(r"[\s\-]+", "_", name.strip().lower()).strip("_")
     if key in _NAMES:
         return _NAMES[key], unit
-    if unit is None:  # variable_unit: try every split point from the right
-        parts = key.split("_")
+    if unit is None:  # "variable_unit" or "variable unit": try every split point from the right
+        spaced = re.sub(r"[\s\-]", "_", c.lower())  # one character for one, so the unit keeps its place
+        parts = spaced.split("_")
         for k in range(len(parts) - 1, 0, -1):
             head = "_".join(parts[:k])
             if head in _NAMES:
                 # keep the unit's original spelling (case matters for some units)
-                return _NAMES[head], c.strip()[len(head) + 1:]
+                return _NAMES[head], c[len(head) + 1:].strip(" _")
     return None, unit
 
 
-def read(path, **options):
+class _Text:
+    """Lines of a text file, one at a time, with their numbers, cleaned of control characters (recorded)."""
+
+    def __init__(self, path, raw_head: bytes, quality):
+        self.path, self.quality = path, quality
+        self.cleaned, self.first_cleaned = 0, None
+        if raw_head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+            self.encoding = "utf-16"
+        else:
+            self.encoding = "utf-8-sig"
+            if b"\x00" in raw_head:
+                raise SoundingFormatError("binary file, not a delimited text table", file=path, line=1)
+
+    def lines(self):
+        try:
+            yield from self._lines(self.encoding)
+        except _Restart:
+            self.quality.append({"level": None, "action": "note", "reason": "file is not UTF-8: read as Latin-1 "
+                                 "(ISO 8859-1)"})
+            self.cleaned, self.first_cleaned = 0, None
+            yield from self._lines("latin-1", restarted=True)
+
+    def _lines(self, encoding, restarted=False):
+        no = 0
+        try:
+            with open(self.path, encoding=encoding, errors="strict", newline=None) as fh:
+                for line in fh:
+                    no += 1
+                    if restarted and no <= self.skip:
+                        continue
+                    line = line.rstrip("\n")
+                    if _CONTROL.search(line):
+                        line = self._clean(line, no)
+                    yield no, line
+        except UnicodeDecodeError:
+            if encoding == "utf-8-sig" and not restarted:
+                self.skip = no  # lines already given out were valid UTF-8 and read the same in Latin-1
+                raise _Restart() from None
+            raise SoundingFormatError("cannot decode the text", file=self.path, line=no + 1) from None
+        except OSError as exc:
+            raise SoundingFormatError(f"cannot read: {exc.strerror}", file=self.path) from None
+
+    def _clean(self, line, no):
+        n = len(_CONTROL.findall(line))
+        self.cleaned += n
+        if self.first_cleaned is None:
+            self.first_cleaned = no
+        return _CONTROL.sub("", line)
+
+    def note(self):
+        if self.cleaned:
+            self.quality.append({"level": None, "action": "changed", "line": self.first_cleaned,
+                                 "reason": f"{self.cleaned} stray control character(s) removed (first at line "
+                                 f"{self.first_cleaned})"})
+
+
+class _Restart(Exception):
+    pass
+
+
+def _number(cell: str, delim, path, no, name, notes):
+    """A float from a cell; NaN for a missing marker; SoundingFormatError for text."""
+    c = cell.strip()
+    if len(c) > MAX_CELL:  # checked before parsing: Python would read 300,000 digits as inf
+        raise SoundingFormatError(f"a cell of {len(c):,} characters is not a number of this table (at most "
+                                  f"{MAX_CELL})", file=path, line=no, column=name)
+    try:
+        return float(c)
+    except ValueError:
+        pass
+    low = c.lower()
+    if low in _MISSING:
+        return np.nan
+    d = c.translate(_MINUS).replace(" ", "").replace("_", "x")
+    if delim != "," and _DECIMAL_COMMA.match(d):
+        notes["decimal comma"] = notes.get("decimal comma", no)
+        d = d.replace(",", ".")
+    try:
+        v = float(d)
+    except ValueError:
+        raise SoundingFormatError(f"{c[:40]!r} is not a number", file=path, line=no, column=name) from None
+    if d != c:
+        notes.setdefault("unicode", no)
+    return v
+
+
+def read(path, units=None, **options):
     """Read a delimited sounding table into a one-element list of profiles.
+
+    Parameters
+    ----------
+    path : str or path-like
+    units : mapping, optional
+        Units of columns whose header gives none, by variable (``{"temperature": "degC", "pressure": "hPa"}``)
+        or by header name. A unit given both ways must agree.
 
     Raises
     ------
     SoundingFormatError
-        Empty or binary file, no header, no pressure or temperature column, unknown unit, text in a number
-        field, a row with too many cells, a temperature column in kelvin labelled degC.
+        Empty or binary file, no header, no pressure or temperature column, unknown unit, a unit that does not
+        fit the values (kelvin labelled degC, hPa labelled Pa...), text in a number field, a row with too many
+        cells, metadata out of range.
+    ProfileQualityError
+        Too few usable levels (see :func:`icing.profile.build_profile`).
     """
-    raw = file_bytes(path, "table")
-    if b"\x00" in raw[:8192]:
-        raise SoundingFormatError("binary file, not a delimited text table", file=path, line=1)
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise SoundingFormatError("not UTF-8 text", file=path, line=line) from exc
-    lines = text.splitlines()
-    if not any(s.strip() for s in lines):
+    if options:
+        raise SoundingFormatError(f"unknown table reader option(s): {', '.join(options)}", file=path)
+    raw_head = _head(path)
+    if not raw_head.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):
         raise SoundingFormatError("file is empty", file=path, line=1)
-    meta, header_no = {}, None
-    for no, line in enumerate(lines, 1):
+    quality = []
+    text = _Text(path, raw_head, quality)
+    units = _units_option(units, path)
+    lines = text.lines()
+    meta, header, header_no = {}, None, None
+    for no, line in lines:
         s = line.strip()
         if not s:
             continue
         if s.startswith("#"):
-            m = re.match(r"^#\s*([A-Za-z_]+)\s*:\s*(.*?)\s*$", s)
+            m = re.match(r"^#\s*([A-Za-z_ ]+?)\s*[:=]\s*(.*?)\s*$", s)
             if m:
-                meta[m.group(1).lower()] = (m.group(2), no)
+                meta[m.group(1).lower().replace(" ", "_")] = (m.group(2), no)
             continue
-        header_no = no
+        header_no, header = no, s
         break
-    if header_no is None:
-        raise SoundingFormatError("no header row (only comments)", file=path, line=len(lines))
-    delim = max(",;\t", key=lambda d: lines[header_no - 1].count(d))
-    header = next(csv.reader([lines[header_no - 1]], delimiter=delim))
-    columns, quality = {}, []
-    for j, cell in enumerate(header):
-        var, unit_text = _split_header(cell)
+    if header is None:
+        raise SoundingFormatError("no header row (only comments)" if meta else "file is empty", file=path,
+                                  line=max(1, header_no or 1))
+    delim = _delimiter(header)
+    cells = [c.strip() for c in _split(header, delim)]
+    parsed = [_split_header(c) for c in cells]
+    first_row = None
+    if not any(u for _, u in parsed) and not units:
+        # A second header row of units only ("hPa, m, C, ..."): take it.
+        for no, line in lines:
+            s = line.strip()
+            if not s or s.startswith("#"):
+                continue
+            unit_cells = [c.strip().strip("[]()") for c in _split(s, delim)]
+            if len(unit_cells) == len(cells) and all(_is_unit(u) or not u for u in unit_cells) and \
+                    any(_is_unit(u) for u in unit_cells):
+                parsed = [(v, u or None) for (v, _), u in zip(parsed, unit_cells, strict=True)]
+            else:
+                first_row = (no, line)
+            break
+    columns = {}
+    for j, (cell, (var, unit_text)) in enumerate(zip(cells, parsed, strict=True)):
         if var is None:
-            quality.append({"level": None, "action": "ignored", "line": header_no,
-                            "reason": f"column {j + 1} {cell.strip()!r} is not a known variable"})
+            if cell:
+                quality.append({"level": None, "action": "ignored", "line": header_no,
+                                "reason": f"column {j + 1} {cell!r} is not a known variable"})
             continue
         if var in columns:
-            raise SoundingFormatError(f"two columns for {var}", file=path, line=header_no, column=cell.strip())
-        if unit_text is None or not unit_text.strip():
-            raise SoundingFormatError(f"column {cell.strip()!r} has no unit (write it as {var}_"
-                                      f"{VARIABLES[var][0].replace('degree', 'deg')})", file=path,
-                                      line=header_no, column=cell.strip())
+            raise SoundingFormatError(f"two columns for {var}", file=path, line=header_no, column=cell)
+        option = units.get(var, units.get(cell.lower()))
+        if option is not None and unit_text and parse_unit_or_none(unit_text) != parse_unit_or_none(option):
+            raise SoundingFormatError(f"column {cell!r} says {unit_text!r} but units= gives {option!r}",
+                                      file=path, line=header_no, column=cell)
+        unit_text = unit_text or option
+        if unit_text is None or not str(unit_text).strip():
+            raise SoundingFormatError(f"column {cell!r} has no unit (write it as {var}_"
+                                      f"{VARIABLES[var][0].replace('degree', 'deg')}, or pass units="
+                                      f"{{'{var}': '{VARIABLES[var][0]}'}})", file=path, line=header_no,
+                                      column=cell)
         try:
-            unit = parse_unit(unit_text)
+            unit = parse_unit(str(unit_text))
         except UnitError as exc:
-            raise SoundingFormatError(str(exc), file=path, line=header_no, column=cell.strip()) from exc
-        if not (Quantity(1.0, unit).dimensionality == Quantity(1.0, VARIABLES[var][0]).dimensionality):
+            raise SoundingFormatError(str(exc), file=path, line=header_no, column=cell) from None
+        if var == "relative_humidity" and unit == parse_unit("1"):
+            pass  # a fraction: converted to percent below
+        elif Quantity(1.0, unit).dimensionality != Quantity(1.0, VARIABLES[var][0]).dimensionality:
             raise SoundingFormatError(f"unit {unit_text!r} does not fit {var}", file=path, line=header_no,
-                                      column=cell.strip())
-        columns[var] = (j, unit, cell.strip())
+                                      column=cell)
+        columns[var] = (j, unit, cell)
     for need in ("pressure", "temperature"):
         if need not in columns:
             raise SoundingFormatError(f"missing column: {need}", file=path, line=header_no)
-    values = {v: [] for v in columns}
-    row_lines = []
-    for no in range(header_no + 1, len(lines) + 1):
-        s = lines[no - 1].strip()
-        if not s or s.startswith("#"):
-            continue
-        cells = next(csv.reader([lines[no - 1]], delimiter=delim))
-        if len(cells) > len(header):
-            raise SoundingFormatError(f"{len(cells)} cells for {len(header)} columns", file=path, line=no)
-        for var, (j, _, name) in columns.items():
-            c = cells[j].strip() if j < len(cells) else ""
-            if c.lower() in _MISSING:
-                values[var].append(np.nan)
-                continue
-            try:
-                values[var].append(float(c))
-            except ValueError:
-                raise SoundingFormatError(f"{c!r} is not a number", file=path, line=no, column=name) from None
-        row_lines.append(no)
-    if not row_lines:
+    values, row_lines, notes = _rows(path, lines, first_row, columns, len(cells), delim)
+    text.note()
+    for what, no in notes.items():
+        quality.append({"level": None, "action": "changed", "line": no, "reason": {
+            "decimal comma": "decimal commas read as decimal points",
+            "unicode": "Unicode minus signs or spaces in numbers read as ASCII"}[what]})
+    if row_lines.size == 0:
         raise SoundingFormatError("header but no data rows", file=path, line=header_no)
     kwargs = {}
     for var, (_, unit, name) in columns.items():
-        arr = np.asarray(values[var], dtype=float)
-        if var == "temperature" or var == "dewpoint":
-            try:
-                check_temperature_unit(arr, str(unit), name=var, file=path, line=header_no, column=name)
-            except ProfileQualityError as exc:
-                raise SoundingFormatError(exc.reason, file=path, line=header_no, column=name) from None
-        kwargs[var] = Quantity(arr, unit)
-    md = {}
-    for key, (val, no) in meta.items():
-        if key in _META_FLOAT:
-            try:
-                md[_META_FLOAT[key]] = float(val)
-            except ValueError:
-                raise SoundingFormatError(f"{key} {val!r} is not a number", file=path, line=no) from None
-        elif key == "time":
-            md["time"] = val
-        elif key in ("station", "id"):
-            md["station"] = val
+        arr = values[var]
+        try:
+            if var in ("temperature", "dewpoint"):
+                check_temperature_unit(arr, str(unit), name=var)
+            if var == "relative_humidity" and unit == parse_unit("1"):
+                arr = arr * 100.0
+            elif unit != parse_unit(VARIABLES[var][0]):
+                arr = np.asarray(Quantity(arr, unit).to(VARIABLES[var][0]).magnitude, dtype=float)
+            if var == "pressure":
+                check_pressure_unit(arr, f"{unit:~}")
+        except ProfileQualityError as exc:
+            raise SoundingFormatError(exc.reason, file=path, line=header_no, column=name) from None
+        kwargs[var] = arr
+        values[var] = None  # the converted copy replaces the read one (memory)
+    md = _metadata(meta, path)
     t = kwargs.pop("temperature")
     p = kwargs.pop("pressure")
-    try:
-        prof = build_profile(p, t, **kwargs, **md, source=str(path), format=FORMAT, lines=row_lines,
-                             quality=quality)
-    except ProfileQualityError as exc:
-        raise ProfileQualityError(exc.reason, file=path, line=exc.line, column=exc.column) from None
-    except ValueError as exc:  # an unparseable time
-        raise SoundingFormatError(f"bad metadata: {exc}", file=path, line=meta.get("time", ("", None))[1]) \
-            from None
+    prof = build_profile(p, t, **kwargs, **md, source=str(path), format=FORMAT, lines=row_lines, quality=quality,
+                         copy=False)
     if "name" in meta:
         prof.attrs["name"] = meta["name"][0]
     for key, (val, _) in meta.items():
         if key.startswith("scenario"):
             prof.attrs["scenario"] = val
     return [prof]
+
+
+def _head(path):
+    """The first 8 KB of the file (SoundingFormatError if it cannot be read)."""
+    try:
+        with open(path, "rb") as fh:
+            return fh.read(8192)
+    except OSError as exc:
+        raise SoundingFormatError(f"cannot read: {exc.strerror}", file=path) from None
+
+
+def parse_unit_or_none(text):
+    try:
+        return parse_unit(str(text))
+    except UnitError:
+        return None
+
+
+def _is_unit(text):
+    t = text.strip()
+    if not t:
+        return False
+    try:
+        float(t)
+        return False
+    except ValueError:
+        return parse_unit_or_none(t) is not None
+
+
+def _units_option(units, path):
+    if units is None:
+        return {}
+    if not hasattr(units, "items"):
+        raise SoundingFormatError(f"units= must be a mapping variable -> unit, got {type(units).__name__}", file=path)
+    out = {}
+    for k, v in units.items():
+        key = str(k).strip().lower()
+        var = _NAMES.get(key.replace(" ", "_"), None)
+        if parse_unit_or_none(v) is None:
+            raise SoundingFormatError(f"units=: unknown unit {v!r} for {k!r}", file=path)
+        out[var or key] = str(v)
+    return out
+
+
+def _rows(path, lines, first_row, columns, ncells, delim):
+    """Typed arrays of the data rows (one per column) and their line numbers, read line by line.
+
+    Rows go through in blocks: a block is parsed at C speed by pandas; a block it refuses (text in a number
+    field, a decimal comma, too many cells) is parsed again row by row to find and name the cell.
+    """
+    cols = [(var, j, name) for var, (j, _, name) in columns.items()]
+    store = {var: array("d") for var, _, _ in cols}
+    row_lines = array("q")
+    notes = {}
+    block, block_lines = [], []
+    longest = ncells * (MAX_CELL + 2)
+
+    def rows():
+        if first_row is not None:
+            yield first_row
+        yield from lines
+
+    def flush():
+        if not block:
+            return
+        simple = max(map(len, block)) <= longest and (
+            all(s.count(delim) < ncells for s in block) if delim else all(len(s.split()) <= ncells for s in block))
+        parsed = _parse_block(block, cols, ncells, delim) if simple else None
+        if parsed is None:
+            for no, s in zip(block_lines, block, strict=True):
+                cells = _split(s, delim)
+                if len(cells) > ncells and any(c.strip() for c in cells[ncells:]):
+                    raise SoundingFormatError(f"{len(cells)} cells for {ncells} columns", file=path, line=no)
+                for var, j, name in cols:
+                    store[var].append(_number(cells[j] if j < len(cells) else "", delim, path, no, name, notes))
+        else:
+            for var, _, _ in cols:
+                store[var].extend(parsed[var])
+        row_lines.extend(block_lines)
+        block.clear()
+        block_lines.clear()
+
+    for no, line in rows():
+        s = line.strip()
+        if not s or s[0] == "#":
+            continue
+        block.append(s)
+        block_lines.append(no)
+        if len(block) >= _CHUNK:
+            flush()
+    flush()
+    values = {var: np.frombuffer(a, dtype=float) if len(a) else np.zeros(0) for var, a in store.items()}
+    return values, np.frombuffer(row_lines, dtype=np.int64) if len(row_lines) else np.zeros(0, int), notes
+
+
+def _parse_block(block, cols, ncells, delim):
+    """{variable: float array} for a block of data rows by pandas' C parser, or None if it refuses any row."""
+    try:
+        frame = pd.read_csv(io.StringIO("\n".join(block)), sep=r"\s+" if delim is None else delim, header=None,
+                            names=list(range(max(ncells, 1))), usecols=[j for _, j, _ in cols], dtype=float,
+                            na_values=sorted(_MISSING), keep_default_na=False, skipinitialspace=True,
+                            skip_blank_lines=False, engine="c", quotechar='"',
+                            index_col=False)
+    except (ValueError, pd.errors.ParserError, OverflowError):
+        return None
+    if len(frame) != len(block):
+        return None
+    return {var: frame[j].to_numpy(dtype=float) for var, j, _ in cols}
+
+
+def _metadata(meta, path):
+    md = {}
+    for key, (val, no) in meta.items():
+        if key in _META_FLOAT:
+            name = _META_FLOAT[key]
+            try:
+                v = float(val.translate(_MINUS)) if len(val) <= MAX_CELL else None
+            except ValueError:
+                v = None
+            if v is None or not np.isfinite(v):
+                raise SoundingFormatError(f"{key} {val[:40]!r} is not a number", file=path, line=no)
+            lo, hi = _META_RANGE[name]
+            if not lo <= v <= hi:
+                raise SoundingFormatError(f"{key} {v:g} outside {lo:g}..{hi:g}", file=path, line=no)
+            md[name] = v
+        elif key == "time":
+            try:
+                ts = pd.Timestamp(val)
+                if ts is pd.NaT:
+                    raise ValueError("empty")
+            except (ValueError, TypeError, OverflowError) as exc:
+                raise SoundingFormatError(f"time {val[:40]!r} is not a date and time ({exc})", file=path,
+                                          line=no) from None
+            md["time"] = val
+        elif key in ("station", "id"):
+            md["station"] = val
+    return md
 
 
 def write(profile, path_or_buffer=None) -> str:
