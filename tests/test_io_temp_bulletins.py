@@ -212,3 +212,9 @@ def test_archive_separators_are_framing():
     """Separator lines of stored bulletin files (****nnnnnnnnnn****) are framing, not stray text."""
     (ds,) = temp.decode_temp("****0000012345****\n" + PART_A + "\n****0000012346****\n")
     assert not [e for e in ds.attrs["quality"] if e["action"] == "skipped"]
+
+
+def test_heading_inside_a_line_is_framing():
+    """A bulletin heading that does not start its own line (text joined without line ends) is framing too."""
+    (a, b) = temp.decode_temp(PART_A + " USXX02 XXXX 150000 RRA " + PART_A.replace("00101", "00102"))
+    assert not [e for e in b.attrs["quality"] if e["action"] == "skipped"]

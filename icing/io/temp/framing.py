@@ -138,6 +138,7 @@ def split_reports(toks, headings):
                 j = bisect.bisect_right(head_lines, item[1]) - 1
                 bbb = headings[j][1] if j >= 0 else ""
             cur = Report(tok, item[1], item[2], bbb, len(reports))
+            stray = _without_headings(stray)
             if stray:
                 cur.records.append(skip(stray[0][1], stray[0][2], " ".join(s[0] for s in stray[:20]),
                                         "text outside any report (before its part identifier)"))
@@ -159,7 +160,24 @@ def split_reports(toks, headings):
             cur.dirty = True
     if cur is not None:
         reports.append(cur)
-    return reports, stray
+    return reports, _without_headings(stray)
+
+
+_HEADING_TOKENS = (re.compile(r"^[A-Z]{4}\d{2}$"), re.compile(r"^[A-Z]{4}$"), re.compile(r"^\d{6}$"))
+
+
+def _without_headings(stray):
+    """Stray tokens less abbreviated headings T1T2A1A2ii CCCC YYGGgg [BBB] standing inside a line (framing)."""
+    out, i, n = [], 0, len(stray)
+    while i < n:
+        if i + 2 < n and all(rx.match(stray[i + k][0]) for k, rx in enumerate(_HEADING_TOKENS)):
+            i += 3
+            if i < n and _BBB.match(stray[i][0]):
+                i += 1
+            continue
+        out.append(stray[i])
+        i += 1
+    return out
 
 
 def clean_groups(rep, start=0):
