@@ -156,9 +156,13 @@ def test_bad_geojson_routes_are_typed_errors(tmp_path, text, match):
      "altitude", 3),
     ("name,latitude,longitude,altitude,speed_kt,time\nA,52,-34,FL100,2000,2026-01-15T06:00Z\nB,53,-31,FL100,,\n",
      "speed", 2),
+    ("name,latitude,longitude,altitude,speed_kt,time\nA,52,-34,FL100,5 m,2026-01-15T06:00Z\nB,53,-31,FL100,,\n",
+     "not a speed", 2),
+    ("name,latitude,longitude,altitude,speed_kt,time\nA,52,-34,FL100,9 parsecs,2026-01-15T06:00Z\n", "speed", 2),
     ("name,latitude,longitude,altitude,altitude\nA,52,-34,FL100,FL100\n", "appears twice", 1),
     ("name,latitude,longitude,altitude,time\nA,52,-34,FL100,2026-01-15T07:00Z\nB,53,-31,FL100,"
-     "2026-01-15T06:00Z\n", "is not after", None),
+     "2026-01-15T06:00Z\n", "is not after", 3),
+    ("name,latitude,longitude,altitude\nA,52,-34,FL100\n\nB,52,-34,FL120\n", "same position", 4),
 ])
 def test_more_bad_csv_routes(tmp_path, text, match, line):
     p = tmp_path / "bad.csv"

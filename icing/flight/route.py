@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from pint.errors import PintError
 from pyproj import Geod
 
 from icing.errors import RouteFormatError, UnitError
@@ -73,15 +74,7 @@ class Route:
             raise RouteFormatError("a route needs at least two waypoints", file=file)
         for i, w in enumerate(self.waypoints):
             _check_waypoint(w, file, None, f"waypoint {i + 1} ({w.name}): ")
-        for i, (a, b) in enumerate(zip(self.waypoints[:-1], self.waypoints[1:], strict=True)):
-            if _same_place(a, b):
-                raise RouteFormatError(f"waypoints {i + 1} ({a.name}) and {i + 2} ({b.name}) are at the same "
-                                       "position: a leg needs a length", file=file)
-        timed = [(i, _utc(w.time)) for i, w in enumerate(self.waypoints) if w.time is not None]
-        for (i, a), (j, b) in zip(timed[:-1], timed[1:], strict=True):
-            if not b > a:
-                raise RouteFormatError(f"waypoint {j + 1} ({self.waypoints[j].name}) time {_iso(b)} is not after "
-                                       f"waypoint {i + 1} ({self.waypoints[i].name}) time {_iso(a)}", file=file)
+        _check_sequence(self.waypoints, file)
         first = self.waypoints[0].time
         given = None if self.departure is None else _checked_time(self.departure, file, None, "departure")
         if given is None and first is None:
@@ -181,6 +174,22 @@ def _check_waypoint(w: Waypoint, file, line, where=""):
         _checked_time(w.time, file, line, f"{where}time")
 
 
+def _check_sequence(wps, file, lines=None):
+    """Legs need a length, and times along the route must increase; ``lines`` (one per waypoint) locate errors."""
+    def line(k):
+        return None if lines is None else lines[k]
+
+    for i, (a, b) in enumerate(zip(wps[:-1], wps[1:], strict=True)):
+        if _same_place(a, b):
+            raise RouteFormatError(f"waypoints {i + 1} ({a.name}) and {i + 2} ({b.name}) are at the same "
+                                   "position: a leg needs a length", file=file, line=line(i + 1))
+    timed = [(i, _utc(w.time)) for i, w in enumerate(wps) if w.time is not None]
+    for (i, a), (j, b) in zip(timed[:-1], timed[1:], strict=True):
+        if not b > a:
+            raise RouteFormatError(f"waypoint {j + 1} ({wps[j].name}) time {_iso(b)} is not after "
+                                   f"waypoint {i + 1} ({wps[i].name}) time {_iso(a)}", file=file, line=line(j))
+
+
 def _same_place(a: Waypoint, b: Waypoint) -> bool:
     _, _, d = GEOD.inv(a.longitude, a.latitude, b.longitude, b.latitude)
     return not d >= 1.0  # under a metre (or not a number)
@@ -267,7 +276,7 @@ def _read_csv(text, path, departure):
         raise RouteFormatError(f"column {dup[0]!r} appears twice", file=path, line=hno)
     notes = [f"{path.name}: column {c!r} ignored (known columns: {', '.join(_CSV_COLUMNS)})"
              for c in cols if c not in _CSV_COLUMNS]
-    wps = []
+    wps, nos = [], []
     for no, s in lines[1:]:
         try:
             cells = _split(s, sep)
@@ -286,10 +295,15 @@ def _read_csv(text, path, departure):
             spd = parse_speed(row["speed_kt"]) if row.get("speed_kt") else None
         except (UnitError, ValueError) as exc:
             raise RouteFormatError(str(exc), file=path, line=no) from None
+        except (PintError, TypeError, AttributeError):  # a unit pint knows but not a speed, or none it knows
+            raise RouteFormatError(f"speed {row['speed_kt']!r} is not a speed (like 250, 250 kt or 130 m/s)",
+                                   file=path, line=no) from None
         t = _checked_time(row["time"], path, no, "time") if row.get("time") else None
         wp = Waypoint(row["name"] or f"WP{len(wps) + 1}", lat, lon, alt, fl, spd, t)
         _check_waypoint(wp, path, no)
         wps.append(wp)
+        nos.append(no)
+    _check_sequence(wps, path, nos)
     return _route(wps, departure, path, notes)
 
 
