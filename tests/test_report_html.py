@@ -234,3 +234,6 @@ def test_unknown_details_read_unknown():
     assert "<dt>max LWC (g/m³)</dt><dd>unknown</dd>" in row
     assert "<dt>ice type</dt>" not in row  # shown in the row itself
     assert ">unknown</td>" in row  # ice type cell
+    assert 'data-label="minutes in icing">unknown<' in row and 'data-label="accretion mm">unknown<' in row
+    assert "DATA GAPS: 1 segment(s) without data and 1 with partial data" in text  # counted from the table
+    assert "1 segment unknown" in text  # beside the worst intensity

@@ -262,7 +262,9 @@ def _glance(assessment) -> list[str]:
     body = s.get("reference_body_diameter_m")
     body_txt = "" if _missing(body) else f" on the {float(body) * 1000:.0f} mm reference body"
     partial = counts["partial"] + counts["missing"] > 0
-    cards = [("worst", _intensity_badge(worst, "ok") + _e(where)),
+    unknown = f" · {counts['missing']} segment{'s' if counts['missing'] != 1 else ''} unknown" \
+        if counts["missing"] else ""
+    cards = [("worst", _intensity_badge(worst, "ok") + _e(where + unknown)),
              ("in icing", ("at least " if partial else "")
               + f"<b>{_e(_fmt(s.get('total_icing_minutes'), 'icing_minutes', 'unknown'))} min</b>"),
              ("accretion", ("at least " if partial else "")
@@ -317,12 +319,13 @@ def _segment_table(assessment) -> list[str]:
         word = _word(row.get("intensity"))
         when = f"{_hhmm(row.get('start_time'))}–{_hhmm(row.get('end_time'))}"
         partial = data == "partial"
+        blank = data == "missing"  # nothing known there: never a 0 that reads as clear air
         cells = [("#", _e(row["segment"]), "id"), ("from", _e(_word(row.get("start"), "?")), "t id"),
                  ("to", _e(_word(row.get("end"), "?")), "t id"), ("time UTC", _e(when), "t"),
                  ("altitude ft", _e(_altitudes(row.get("altitude_ft_min"), row.get("altitude_ft_max"))), ""),
-                 ("minutes in icing", _e(_fmt(row.get("icing_minutes"), "icing_minutes", "unknown"))
-                  + ("*" if partial else ""), ""),
-                 ("accretion mm", _e(_fmt(row.get("accretion_mm"), "accretion_mm", "unknown"))
+                 ("minutes in icing", "unknown" if blank else _e(_fmt(row.get("icing_minutes"), "icing_minutes",
+                                                                      "unknown")) + ("*" if partial else ""), ""),
+                 ("accretion mm", "unknown" if blank else _e(_fmt(row.get("accretion_mm"), "accretion_mm", "unknown"))
                   + ("*" if partial else ""), ""),
                  ("intensity", _intensity_badge(word, data), "t st"),
                  ("ice type", _e(_word(row.get("ice_type"))), "t"),
@@ -370,7 +373,8 @@ def report_html(assessment, images: dict[str, str], source=None) -> str:
            f"<h1>Icing screening of route {_e(s.get('route', ''))}</h1>",
            f'<p class="meta">{_e(" · ".join(m for m in meta if m))}</p>']
     out += _glance(assessment)
-    n_miss, n_part = s.get("segments_missing_data", 0), s.get("segments_partial_data", 0)
+    data = seg["data"].astype(object).where(seg["data"].notna(), "missing")  # the table is the truth
+    n_miss, n_part = int((data == "missing").sum()), int((data == "partial").sum())
     if n_miss or n_part:
         out.append(f'<p class="gaps" id="gaps">DATA GAPS: {int(n_miss)} segment(s) without data and {int(n_part)} '
                    "with partial data. Icing there is UNKNOWN, not absent; hatched areas in the figures mark "

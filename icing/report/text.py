@@ -44,9 +44,11 @@ def segment_table(assessment) -> str:
             "type", "large drops", "data", "best alt ft", "best mm"]
     rows = []
     for r in seg.itertuples():
+        blank = _word(r.data, "missing") == "missing"  # nothing known there: a dash, never a 0 that reads as clear
         rows.append([str(r.segment), _word(r.start), _word(r.end), _hhmm(r.start_time), _num(r.distance_nm, 0),
-                     _alt(r.altitude_ft_min, r.altitude_ft_max), _num(r.icing_minutes, 0),
-                     _num(r.max_rate_mm_per_h), _num(r.accretion_mm), _intensity(r.intensity, r.data),
+                     _alt(r.altitude_ft_min, r.altitude_ft_max), "-" if blank else _num(r.icing_minutes, 0),
+                     "-" if blank else _num(r.max_rate_mm_per_h), "-" if blank else _num(r.accretion_mm),
+                     _intensity(r.intensity, r.data),
                      _word(r.ice_type), _word(r.large_drops), _word(r.data, "missing"),
                      _num(r.best_altitude_ft, 0), _num(r.best_accretion_mm)])
     widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h) for i, h in enumerate(head)]
