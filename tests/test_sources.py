@@ -88,3 +88,13 @@ def test_unknown_source_options_are_refused(demo_model):
         GridSource(demo_model, sprd=True)
     with pytest.raises(ConfigError, match="sprd"):
         SoundingSource([prof("A", 52.0, -30.0, "2026-01-15T00:00Z")], sprd=True)
+
+
+@pytest.mark.parametrize("option", [{"max_distance_km": -5.0}, {"max_distance_km": float("nan")},
+                                    {"max_age_hours": "12"}, {"max_stations": 0}, {"max_stations": 2.5}])
+def test_bad_matching_options_are_refused(option):
+    """A NaN or negative radius would silently match nothing (every sample unknown): a ConfigError instead."""
+    from icing.errors import ConfigError
+
+    with pytest.raises(ConfigError, match=next(iter(option))):
+        SoundingSource([prof("A", 52.0, -30.0, "2026-01-15T00:00Z")], **option)

@@ -122,6 +122,7 @@ class Assessment:
     def _repr_html_(self) -> str:
         e = html.escape
         dl = "".join(f"<dt>{e(k)}</dt><dd>{e(v)}</dd>" for k, v in self._lines())
-        table = self.segments.to_html(index=False, na_rep="unknown", max_rows=60, border=0)
+        table = self.segments.to_html(index=False, na_rep="unknown", max_rows=60, border=0,
+                                      float_format=lambda v: f"{v:,.1f}")
         return (f'<div class="icing-assessment"><p><b>{e(self.caution)}</b></p><dl>{dl}</dl>{table}'
                 f"<p>{len(self.samples)} trajectory samples in <code>.samples</code>.</p></div>")

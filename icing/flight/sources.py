@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from icing.errors import IcingError
+from icing.errors import ConfigError, IcingError
 from icing.profile import stack_profiles
 
 __all__ = ["SoundingSource", "EARTH_RADIUS_M", "sample_points"]
@@ -40,6 +40,21 @@ def sample_points(latitude, longitude, time, pressure=None, height=None):
     p_in = np.full(n, np.nan) if pressure is None else np.broadcast_to(np.asarray(pressure, float), (n,))
     z_in = np.full(n, np.nan) if height is None else np.broadcast_to(np.asarray(height, float), (n,))
     return lat, lon, ts, p_in, z_in
+
+
+def _check_matching(max_distance_km, max_age_hours, max_stations):
+    """Matching options must be usable numbers: a NaN or negative radius would silently match nothing."""
+    for name, value, low in (("max_distance_km", max_distance_km, 0.0), ("max_age_hours", max_age_hours, 0.0),
+                             ("max_stations", max_stations, 1)):
+        try:
+            ok = isinstance(value, int | float | np.integer | np.floating) and not isinstance(value, bool) \
+                and np.isfinite(value) and value >= low
+        except TypeError:
+            ok = False
+        if not ok:
+            raise ConfigError(f"{name} must be a number of at least {low}, not {value!r}")
+    if int(max_stations) != max_stations:
+        raise ConfigError(f"max_stations must be a whole number, not {max_stations!r}")
 
 
 def _haversine(lat1, lon1, lat2, lon2):
@@ -92,6 +107,7 @@ class SoundingSource:
                              f"{', '.join(bad[:5])}{' ...' if len(bad) > 5 else ''} (a station table gives "
                              "positions; TEMP reports carry only day and hour, so give the month)")
         self.profiles = stacked
+        _check_matching(max_distance_km, max_age_hours, max_stations)
         self.max_distance_m = float(max_distance_km) * 1000.0
         self.max_age_s = float(max_age_hours) * 3600.0
         self.max_stations = int(max_stations)
