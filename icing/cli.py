@@ -143,7 +143,7 @@ def _add_screen_options(sp):
 
 
 def _add_grid_parser(sub):
-    """``icing grid``: the arguments of icing.grid.diagnosis.add_grid_parser, defined here so help stays light."""
+    """``icing grid`` (its arguments here so that help stays light; run by icing.grid.diagnosis.grid_main)."""
     gp = _sub(sub, "grid", "icing diagnostics and accretion potential over model grids",
               "Diagnose supercooled liquid and accretion potential over model grids on pressure levels and write "
               "them as a CF netCDF or zarr file.")
@@ -164,9 +164,6 @@ def _add_grid_parser(sub):
                        "e.g. --workers 2")
     where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster; "
                        "e.g. --scheduler tcp://10.0.0.5:8786")
-    gp.add_argument("--engine", choices=["auto", "numpy", "numba"], default=None,
-                    help="numpy arrays, or numba's fused kernel (same results; default auto: numba if installed); "
-                    "e.g. --engine numpy")
     gp.add_argument("--quiet", action="store_true", help="no progress bar")
     return gp
 

@@ -7,7 +7,6 @@ hand-worked linear interpolation for freezing levels, and dask's own schedulers 
 
 from __future__ import annotations
 
-import argparse
 from pathlib import Path
 
 import numpy as np
@@ -15,10 +14,11 @@ import pandas as pd
 import pytest
 import xarray as xr
 
+from icing.cli import build_parser
 from icing.errors import ConfigError
 from icing.flight.gridsource import GridSource
 from icing.flight.sources import SoundingSource
-from icing.grid import add_grid_parser, chunk_model, column_summaries, diagnose_grid, grid_main
+from icing.grid import chunk_model, column_summaries, diagnose_grid, grid_main
 from icing.io import read_profiles
 from icing.io.model import read_model
 from icing.physics import thermo
@@ -222,8 +222,7 @@ def test_grid_command_writes_the_potential(tmp_path, capsys, demo_model):
     """`icing grid FIELDS --aircraft NAME --out FILE` writes the level fields and the 2-D summaries."""
     pytest.importorskip("dask")
     path = demo_model
-    parser = argparse.ArgumentParser()
-    add_grid_parser(parser.add_subparsers(dest="command"))
+    parser = build_parser()
     args = parser.parse_args(["grid", str(path), "--aircraft", "turboprop", "--out", str(tmp_path / "out.nc"),
                               "--chunk-points", "100000", "--quiet"])
     assert grid_main(args) == 0
@@ -243,8 +242,7 @@ def test_grid_command_without_dask_reads_eagerly(tmp_path, capsys, monkeypatch, 
     import icing.grid.diagnosis as grid
 
     monkeypatch.setattr(grid, "_have_dask", lambda: False)
-    parser = argparse.ArgumentParser()
-    add_grid_parser(parser.add_subparsers(dest="command"))
+    parser = build_parser()
     args = parser.parse_args(["grid", str(demo_model), "--out", str(tmp_path / "eager.nc"), "--quiet"])
     assert grid_main(args) == 0
     err = capsys.readouterr().err
@@ -275,8 +273,7 @@ def test_outputs_subset_equals_the_full_result(tmp_path, capsys, demo_model):
     np.testing.assert_allclose(eager["max_potential_rate"].values, full["max_potential_rate"].values, rtol=1e-12)
     with pytest.raises(ConfigError, match="unknown grid output"):
         diagnose_grid(model, "turboprop", outputs=["icing_everywhere"])
-    parser = argparse.ArgumentParser()
-    add_grid_parser(parser.add_subparsers(dest="command"))
+    parser = build_parser()
     args = parser.parse_args(["grid", str(demo_model), "--out", str(tmp_path / "s.nc"), "--summary-only",
                               "--quiet"])
     assert grid_main(args) == 0

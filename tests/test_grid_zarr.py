@@ -10,7 +10,6 @@ its integer type only in the netCDF file.
 
 from __future__ import annotations
 
-import argparse
 import json
 
 import numpy as np
@@ -18,7 +17,8 @@ import pytest
 import xarray as xr
 
 from icing import CAUTION
-from icing.grid import add_grid_parser, chunk_model, diagnose_grid, grid_main, write_grid
+from icing.cli import build_parser
+from icing.grid import chunk_model, diagnose_grid, grid_main, write_grid
 from icing.io.model import read_model
 
 pytest.importorskip("zarr")
@@ -86,8 +86,7 @@ def test_grid_command_writes_zarr(tmp_path, capsys, demo_model):
     """`icing grid FIELDS --aircraft NAME --out FILE.zarr` writes a zarr store with the level fields and the 2-D
     summaries that equals the netCDF output of the same command (read back by xarray)."""
     pytest.importorskip("dask")
-    parser = argparse.ArgumentParser()
-    add_grid_parser(parser.add_subparsers(dest="command"))
+    parser = build_parser()
     outs = {}
     for suffix in (".zarr", ".nc"):
         args = parser.parse_args(["grid", str(demo_model), "--aircraft", "turboprop", "--out",

@@ -23,8 +23,6 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from icing.errors import ConfigError, UnitError
-from icing.units import to_si as _to_si
-from icing.units import ureg
 
 __all__ = ["Aircraft", "PRESETS", "get_aircraft"]
 
@@ -79,9 +77,16 @@ class Aircraft:
             raise ConfigError("name: must not be empty")
         for field, (unit, lo, hi) in _LIMITS.items():
             value = getattr(self, field)
-            if isinstance(value, bool) or not isinstance(value, int | float | ureg.Quantity):
+            if isinstance(value, bool):
                 raise ConfigError(f"{field}: must be a number, got {value!r}")
-            number = float(_to_si(value, unit, name=field, default_unit=unit))
+            if isinstance(value, int | float):
+                number = float(value)
+            else:  # a Quantity (pint, and MetPy's registry with it, loads only when one is given)
+                from icing.units import to_si, ureg
+
+                if not isinstance(value, ureg.Quantity):
+                    raise ConfigError(f"{field}: must be a number, got {value!r}")
+                number = float(to_si(value, unit, name=field, default_unit=unit))
             if not math.isfinite(number) or not lo <= number <= hi:
                 raise ConfigError(f"{field}: {number:g} is outside the plausible range {lo:g}-{hi:g} {unit}")
             object.__setattr__(self, field, number)

@@ -3,7 +3,6 @@
 from icing.grid.diagnosis import (
     DEFAULT_CHUNK_POINTS,
     N_FREEZING_LEVELS,
-    add_grid_parser,
     chunk_model,
     column_summaries,
     diagnose_grid,
@@ -14,4 +13,4 @@ from icing.grid.diagnosis import (
 )
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
-           "grid_main", "add_grid_parser", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
+           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]

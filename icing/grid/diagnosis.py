@@ -34,7 +34,7 @@ from icing.physics.jit import jitable
 from icing.units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
-           "grid_main", "add_grid_parser", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
+           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
 
 N_FREEZING_LEVELS = 3  # freezing levels kept per column, lowest first
 DEFAULT_CHUNK_POINTS = 400_000  # level-points per chunk: ~3 MB per float64 field, a few hundred MB of temporaries
@@ -503,36 +503,6 @@ def write_grid(ds: xr.Dataset, path, *, client=None, progress=True, variables=No
 
 
 # --- command line -------------------------------------------------------------------------------------
-
-EXAMPLE = ("examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out potential.nc\n"
-           "  icing grid fields_*.grib2 --aircraft regional-jet --out potential.nc --workers 2\n"
-           "  icing grid big.nc --aircraft turboprop --out potential.nc --scheduler tcp://10.0.0.5:8786")
-
-
-def add_grid_parser(subparsers):
-    """Add ``icing grid FIELDS --aircraft NAME --out FILE`` to an argparse subparsers object."""
-    import argparse
-
-    gp = subparsers.add_parser("grid", help="icing diagnostics and accretion potential over model grids",
-                               epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
-    gp.add_argument("fields", nargs="+", metavar="FIELDS", help="model files on pressure levels (netCDF with CF "
-                    "names, or GRIB2 with cfgrib); several files are joined along time")
-    gp.add_argument("--aircraft", default="turboprop", help="preset name or TOML file (default turboprop)")
-    gp.add_argument("--out", required=True, metavar="FILE", help="output .nc (netCDF4) or .zarr")
-    gp.add_argument("--airspeed", type=float, metavar="KT", help="true airspeed, kt (default: the aircraft's "
-                    "cruise speed)")
-    gp.add_argument("--cold-limit", type=float, default=DEFAULT_COLD_LIMIT_C, help="coldest supercooled liquid, "
-                    "degC (-40)")
-    gp.add_argument("--airmass", choices=["continental", "marine"], default="continental")
-    gp.add_argument("--summary-only", action="store_true", help="write only the 2-D column summaries")
-    gp.add_argument("--chunk-points", type=int, default=DEFAULT_CHUNK_POINTS, metavar="N",
-                    help=f"level-points per chunk (default {DEFAULT_CHUNK_POINTS})")
-    where = gp.add_mutually_exclusive_group()
-    where.add_argument("--workers", type=int, metavar="N", help="run on a dask LocalCluster of N processes")
-    where.add_argument("--scheduler", metavar="ADDRESS", help="run on a running dask cluster")
-    gp.add_argument("--quiet", action="store_true", help="no progress bar")
-    return gp
-
 
 def open_fields(paths, chunk_points=DEFAULT_CHUNK_POINTS) -> xr.Dataset:
     """Read one or more model files lazily and join them along time (sorted; duplicate times raise).

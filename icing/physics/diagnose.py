@@ -239,7 +239,12 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         liquid_ok = cl[k] >= MODEL_CLOUD_MIN if model[k] else rh_w[k] >= threshold
         sc = in_cloud[k] and tk <= thermo.T0 and tk >= cold_limit and liquid_ok
         supercooled[k] = sc
-        lf = microphysics.liquid_fraction(tk, cold_limit)
+        if tk > thermo.T0:  # (outside the fit's range the fraction is 1 or 0: no exponential spent there)
+            lf = 1.0
+        elif tk < cold_limit:
+            lf = 0.0
+        else:
+            lf = microphysics.liquid_fraction(tk, cold_limit)
         lf_out[k] = lf
         lwc = 0.0
         if sc or (in_cloud[k] and tk > thermo.T0):
