@@ -101,9 +101,9 @@ def _overrides(pairs):
 
 
 def _add_reader_options(p):
-    p.add_argument("--stations", metavar="CSV", help="station table (station,name,latitude,longitude,"
-                   "elevation_m) giving positions to reports that carry none, such as TEMP; "
-                   "e.g. --stations stations.csv")
+    p.add_argument("--stations", metavar="FILE", help="station list giving positions to reports that carry none, "
+                   "such as land TEMP and PILOT: a CSV (station,latitude,longitude[,elevation_m,name]) or the IGRA "
+                   "v2 station list; e.g. --stations stations.csv")
     p.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
                    "and hour; e.g. --reference-time 2026-01-15")
 
