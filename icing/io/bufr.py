@@ -199,7 +199,11 @@ def _spread_duplicates(lev, where):
     entries = []
     if fin.size < 2:
         return p, entries
-    ascent = p[fin[0]] >= p[fin[-1]]
+    # Ascent or descent from the first and last records' pressures (or heights, where these are equal).
+    ascent = p[fin[0]] > p[fin[-1]]
+    if p[fin[0]] == p[fin[-1]]:
+        z = lev["height"][np.isfinite(lev["height"])]
+        ascent = z.size < 2 or z[0] <= z[-1]
     values, inverse, counts = np.unique(p[fin], return_inverse=True, return_counts=True)
     names = [k for k in lev if k not in ("pressure", "significance")]  # flags of merged records are OR-ed
     for g in np.flatnonzero(counts > 1):
