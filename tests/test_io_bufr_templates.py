@@ -129,6 +129,7 @@ def encode(fh, template, subsets, compressed=False):
             ec.codes_set_array(h, "inputDelayedDescriptorReplicationFactor", nsh)
             ec.codes_set_array(h, "unexpandedDescriptors", [template])
         heads = [_header(template, s) for s in subsets]
+        wigos = [s.get("wigos") for s in subsets]
         cols = [_columns(template, s) for s in subsets]
         ships = [s["ship"] or "" for s in subsets]
         if compressed:  # one value per subset for each ranked element
@@ -144,6 +145,10 @@ def encode(fh, template, subsets, compressed=False):
                 ec.codes_set_array(h, key, _missing([hd[key] for hd in heads]))
             if template in (309196, 309198) or template in NEW:
                 ec.codes_set_string_array(h, "shipOrMobileLandStationIdentifier", ships)
+            if template in NEW and any(wigos):
+                for k, key in enumerate(("wigosIdentifierSeries", "wigosIssuerOfIdentifier", "wigosIssueNumber")):
+                    ec.codes_set_array(h, key, [w[k] for w in wigos])
+                ec.codes_set_string_array(h, "wigosLocalIdentifierCharacter", [w[3] for w in wigos])
             for name in cols[0]:
                 values = np.concatenate([np.asarray(c[name], float) for c in cols])
                 if values.size:  # no wind-shear group in any subset: nothing to set
@@ -311,3 +316,24 @@ def test_import_icing_does_not_import_eccodes():
     code = "import sys, icing, icing.io, icing.io.bufr, icing.io.bufr_walk; print('eccodes' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_wigos_identifier_when_there_is_no_wmo_number(tmp_path):
+    """3 09 057 without block and station number: the station is the WIGOS identifier (0 01 125-0 01 128,
+    written series-issuer-issue-local as WMO-No. 1160 spells it, from memory)."""
+    src = ascent(1, shear=0)
+    src["block"] = src["station"] = np.nan
+    src["wigos"] = (0, 20000, 0, "VARROW1")
+    (ds,) = bufr.read(write(tmp_path / "w.bufr", 309057, [[src]]))
+    assert ds.attrs["station"] == "0-20000-0-VARROW1"
+
+
+def test_old_significance_flags_are_mapped():
+    """0 08 001 (7 bits) onto 0 08 042: the real 3 09 007 sample's surface level reads 68 = surface (64) and
+    significant temperature (4); its 1000 hPa level 32 = standard level."""
+    from pathlib import Path
+
+    (ds, *_) = bufr.read(Path(__file__).parent / "data" / "bufr" / "temp_101.bufr")
+    sig = ds["vertical_significance"].values
+    assert sig[0] == SFC | SIGT
+    assert sig[ds["bufr_record"].values == 3][0] == STD
