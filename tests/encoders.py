@@ -286,6 +286,46 @@ def encode_igra(soundings, station_id="ZZM00000101"):
     return "\n".join(lines) + "\n"
 
 
+def igra_derived_header(station_id, time, nlev, derived=None):
+    """A derived-parameter header record ("IGRA v2 derived parameters format description"): # 1, ID 2-12,
+    YEAR 14-17, MONTH 19-20, DAY 22-23, HOUR 25-26, RELTIME 28-31, NUMLEV 32-36, PW 38-43, then 19 fields of
+    six columns (INVPRESS 44-49 ... CIN 152-157). ``derived``: values of those 20 fields (default -99999)."""
+    t = np.datetime64(time, "m").astype(object)
+    fields = list(derived) if derived is not None else [-99999] * 20
+    return (f"#{station_id:<11s} {t.year:4d} {t.month:02d} {t.day:02d} {t.hour:02d} {t.hour:02d}{t.minute:02d}"
+            f"{nlev:5d} " + "".join(f"{v:6d}" for v in fields))
+
+
+def igra_derived_level(press_pa, repgph, calcgph, temp_k10, reprh10, calcrh10, u10, v10):
+    """A derived-parameter data record: 19 fields of seven columns, one blank between (PRESS 1-7, REPGPH 9-15,
+    CALCGPH 17-23, TEMP 25-31, ..., REPRH 89-95, CALCRH 97-103, ..., UWND 113-119, ..., VWND 129-135, N
+    145-151); the fields this library does not read are written as -99999."""
+    fields = [press_pa, repgph, calcgph, temp_k10] + [-99999] * 7 + [reprh10, calcrh10, -99999, u10, -99999,
+                                                                      v10, -99999, -99999]
+    return " ".join(f"{v:7d}" for v in fields)
+
+
+def encode_igra_derived(soundings, station_id="ZZM00000101"):
+    """IGRA v2 derived-parameter text for a list of (time, profile dict) soundings: pressure in Pa, height
+    reported (REPGPH; a NaN height writes -99999 there and the ``calc_height`` value, if any, in CALCGPH),
+    temperature in tenths of K, relative humidity in tenths of percent, wind components in tenths of m/s."""
+    lines = []
+    for time, prof in soundings:
+        p = np.asarray(prof["pressure"], dtype=float)
+        n = p.size
+        get = {k: np.asarray(prof.get(k, np.full(n, np.nan)), dtype=float)
+               for k in ("height", "calc_height", "temperature", "relative_humidity", "u", "v")}
+        lines.append(igra_derived_header(station_id, time, n))
+        for i in range(n):
+            lines.append(igra_derived_level(
+                igra_value(p[i], 100.0, -99999), igra_value(get["height"][i], 1.0, -99999),
+                igra_value(get["calc_height"][i], 1.0, -99999),
+                igra_value(get["temperature"][i] + 273.15, 10.0, -99999),
+                igra_value(get["relative_humidity"][i], 10.0, -99999), -99999,
+                igra_value(get["u"][i], 10.0, -99999), igra_value(get["v"][i], 10.0, -99999)))
+    return "\n".join(lines) + "\n"
+
+
 # ---------------------------------------------------------------------------------------------------------
 # Random plausible soundings. Plausible means inside the climatological windows the TEMP code relies on
 # (WMO-No. 306 FM 35 drops the leading digits of standard heights): surface 990-1030 hPa below 100 m,

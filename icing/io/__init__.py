@@ -11,11 +11,11 @@ from __future__ import annotations
 import importlib
 from pathlib import Path
 
-from icing.errors import SoundingFormatError
+from icing.errors import IcingError, SoundingFormatError
 
 __all__ = ["read_sounding", "read_profiles", "read_soundings", "read_paths", "reader_for", "FORMATS"]
 
-_READER_OPTIONS = {"stations", "reference_time", "start", "end"}
+_READER_OPTIONS = {"stations", "reference_time", "start", "end", "units"}
 # File endings a directory read looks at (anything else in the folder is not taken for a sounding).
 SOUNDING_SUFFIXES = (".csv", ".tsv", ".txt", ".nc", ".nc4", ".bufr", ".bin", ".temp", ".dat")
 
@@ -64,7 +64,11 @@ def reader_for(path, format: str | None = None):
             mod = _module(name)
         except ImportError:  # a reader whose optional dependency is absent cannot claim files
             continue
-        if mod.sniff(head, path):
+        try:
+            claimed = mod.sniff(head, path)
+        except Exception:  # a sniffer that cannot make sense of the bytes does not claim the file
+            claimed = False
+        if claimed:
             return mod
     if b"\x00" in head:
         raise SoundingFormatError("binary file of no known sounding format (netCDF, BUFR)", file=path)
@@ -76,7 +80,8 @@ def read_profiles(path, format: str | None = None, **options):
     """Every profile in a file, as a list of canonical profile Datasets.
 
     Options are passed to the reader that takes them (``stations`` and ``reference_time`` for TEMP, ``start``
-    and ``end`` for IGRA); options a reader does not take are not given to it.
+    and ``end`` for IGRA, ``units`` for tables and netCDF: a mapping variable -> unit for columns or variables
+    that give none); options a reader does not take are not given to it.
     """
     import inspect
 
@@ -84,7 +89,13 @@ def read_profiles(path, format: str | None = None, **options):
     params = inspect.signature(mod.read).parameters
     # Options meant for other readers are left out; anything else goes through (a reader refuses a typo).
     opts = {k: v for k, v in options.items() if v is not None and (k in params or k not in _READER_OPTIONS)}
-    profiles = mod.read(path, **opts)
+    try:
+        profiles = mod.read(path, **opts)
+    except (IcingError, MemoryError, KeyboardInterrupt):
+        raise
+    except Exception as exc:  # a reader's own checks missed something: still one typed line naming the file
+        raise SoundingFormatError(f"cannot read as {getattr(mod, 'FORMAT', format)}: {type(exc).__name__}: "
+                                  f"{str(exc)[:200]}", file=path) from exc
     if not profiles:
         raise SoundingFormatError("no profile found in the file", file=path)
     return profiles
@@ -166,7 +177,8 @@ def read_sounding(path, format: str | None = None, **options):
     """Read one sounding file into the canonical profile Dataset, sniffing the format.
 
     A file holding one profile gives that profile; a file holding several gives them stacked along a
-    ``profile`` dimension (see :func:`icing.profile.stack_profiles`).
+    ``profile`` dimension (see :func:`icing.profile.stack_profiles`). ``units={"temperature": "degC", ...}``
+    gives the units of table columns (or netCDF variables) whose header names none.
     """
     from icing.profile import stack_profiles
 

@@ -20,6 +20,14 @@ LAT, LON 56-62, 64-71 (1e-4 deg)
 
 -9999 is a missing value and -8888 a value removed by IGRA's quality control: the quality record keeps
 them apart (every -8888 value is listed; -9999 values are counted per variable with their lines).
+
+IGRA v2 *derived-parameter* files ("IGRA v2 derived parameters format description", NOAA NCEI; positions from
+memory of that description, checked against an independent reader's column table) are recognised by their
+longer records (header 157 columns, data 151) and read: header ID 2-12, YEAR 14-17, MONTH 19-20, DAY 22-23,
+HOUR 25-26, RELTIME 28-31, NUMLEV 32-36 (no latitude or longitude: the position is unknown); data PRESS 1-7
+(Pa), REPGPH 9-15 and CALCGPH 17-23 (m; the reported height, else IGRA's calculated one, with a note), TEMP
+25-31 (tenths of K), REPRH 89-95 and CALCRH 97-103 (tenths of %; reported, else calculated), UWND 113-119 and
+VWND 129-135 (tenths of m/s). -99999 / -9999 are missing, -88888 / -8888 removed by IGRA's quality control.
 """
 
 from __future__ import annotations
@@ -32,7 +40,7 @@ import pandas as pd
 
 from icing.errors import ProfileQualityError, SoundingFormatError
 from icing.io import file_bytes
-from icing.profile import build_profile
+from icing.profile import build_profile, check_temperature_unit
 
 __all__ = ["FORMAT", "sniff", "read", "decode_igra", "MISSING", "REMOVED"]
 
@@ -46,7 +54,19 @@ _DATA_FIELDS = {"lvltyp1": (1, 1), "lvltyp2": (2, 2), "etime": (4, 8), "press": 
 _HEADER_FIELDS = {"year": (14, 17), "month": (19, 20), "day": (22, 23), "hour": (25, 26),
                   "reltime": (28, 31), "numlev": (33, 36), "lat": (56, 62), "lon": (64, 71)}
 _VARIABLE_OF = {"press": "pressure", "gph": "height", "temp": "temperature", "rh": "relative_humidity",
-                "dpdp": "dewpoint", "wdir": "wind_direction", "wspd": "wind_speed"}
+                "dpdp": "dewpoint", "wdir": "wind_direction", "wspd": "wind_speed", "repgph": "height",
+                "calcgph": "height", "reprh": "relative_humidity", "calcrh": "relative_humidity",
+                "uwnd": "wind_speed", "vwnd": "wind_speed"}
+
+
+# Derived-parameter files: name: (first column, last column), 1-based inclusive.
+_DERIVED_HEADER = {"year": (14, 17), "month": (19, 20), "day": (22, 23), "hour": (25, 26), "reltime": (28, 31),
+                   "numlev": (32, 36)}
+_DERIVED_FIELDS = {"press": (1, 7), "repgph": (9, 15), "calcgph": (17, 23), "temp": (25, 31), "reprh": (89, 95),
+                   "calcrh": (97, 103), "uwnd": (113, 119), "vwnd": (129, 135)}
+_DERIVED_WIDTH = 100  # a header or data record longer than this is of the derived-parameter layout
+_MISSING_CODES = (-9999, -99999)
+_REMOVED_CODES = (-8888, -88888)
 
 
 def sniff(head: bytes, path) -> bool:
@@ -62,29 +82,41 @@ def _field(line, first, last):
     return line[first - 1:last]
 
 
-def _parse_header(line, lineno, path):
+def _parse_header(line, lineno, path, derived=False):
     """Header fields as ints (None where blank); SoundingFormatError if the record is not a header."""
-    if not _HEADER.match(line):
+    if not _HEADER.match(line) and not (derived and _HEADER.match(line[:31] + " " + line[32:])):
         raise SoundingFormatError("not an IGRA v2 header record (#ID YEAR MONTH DAY HOUR RELTIME NUMLEV ...)",
                                   file=path, line=lineno, column=1)
     out = {"id": line[1:12]}
-    for name, (a, b) in _HEADER_FIELDS.items():
+    for name, (a, b) in (_DERIVED_HEADER if derived else _HEADER_FIELDS).items():
         s = _field(line, a, b).strip()
         try:
             out[name] = int(s) if s else None
         except ValueError:
             raise SoundingFormatError(f"header field {name.upper()} {s!r} is not an integer", file=path,
                                       line=lineno, column=a) from None
+    if derived:
+        out["lat"] = out["lon"] = None
     return out
 
 
-def _data_block(lines, linenos, quality):
+def _is_derived(lines, h_idx, stop):
+    """Does the sounding at header line ``h_idx`` use the derived-parameter layout (longer records)?"""
+    if len(lines[h_idx].rstrip()) > _DERIVED_WIDTH:
+        return True
+    first = next((ln for ln in lines[h_idx + 1: stop] if ln.strip()), "")
+    return len(first.rstrip()) > _DERIVED_WIDTH
+
+
+def _data_block(lines, linenos, quality, fields=None):
     """Integer arrays of the data records (fixed columns); an unreadable record is recorded and skipped."""
+    fields = fields or _DATA_FIELDS
+    width = max(b for _, b in fields.values())
     n = len(lines)
-    out = {k: np.full(n, MISSING, dtype=np.int64) for k in _DATA_FIELDS}
+    out = {k: np.full(n, MISSING, dtype=np.int64) for k in fields}
     ok = np.ones(n, dtype=bool)
-    padded = [ln.ljust(51) for ln in lines]
-    for name, (a, b) in _DATA_FIELDS.items():
+    padded = [ln.ljust(width) for ln in lines]
+    for name, (a, b) in fields.items():
         col = [p[a - 1:b] for p in padded]
         try:
             out[name] = np.array(col).astype(np.int64)
@@ -103,8 +135,8 @@ def _data_block(lines, linenos, quality):
 def _scaled(raw, scale, name, lines, quality):
     """Float values from raw integers; -9999 and -8888 become NaN and are recorded apart."""
     values = raw.astype(float) * scale
-    removed = raw == REMOVED
-    missing = raw == MISSING
+    removed = np.isin(raw, _REMOVED_CODES)
+    missing = np.isin(raw, _MISSING_CODES)
     variable = _VARIABLE_OF[name]
     for i in np.flatnonzero(removed):
         quality.append({"level": None, "action": "removed", "variable": variable, "line": int(lines[i]),
@@ -147,7 +179,8 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
         No header record, a malformed header, or no sounding with two usable levels in the time range.
     """
     start, end = _utc(start), _utc(end)
-    lines = text.lstrip("\ufeff").splitlines()
+    # Records end at line feeds only (str.splitlines would also split at form feeds and other controls).
+    lines = text.lstrip("\ufeff").replace("\r\n", "\n").replace("\r", "\n").split("\n")
     heads = [i for i, ln in enumerate(lines) if ln.startswith("#")]
     if not heads:
         raise SoundingFormatError("no IGRA v2 header record (a line starting with #)", file=source, line=1)
@@ -158,7 +191,8 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
     profiles, failures = [], []
     bounds = heads[1:] + [len(lines)]
     for h_idx, stop in zip(heads, bounds, strict=True):
-        header = _parse_header(lines[h_idx], h_idx + 1, source)
+        derived = _is_derived(lines, h_idx, stop)
+        header = _parse_header(lines[h_idx], h_idx + 1, source, derived)
         time = _sounding_time(header)
         if time is not None and ((start is not None and time < start) or (end is not None and time > end)):
             continue
@@ -177,6 +211,15 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
                             "follow"})
         block = [b for b, e in zip(block, blank, strict=True) if not e]
         linenos = linenos[~blank]
+        if derived:
+            try:
+                ds = _derived_profile(block, linenos, header, time, quality, source)
+            except ProfileQualityError as exc:
+                failures.append({"level": None, "action": "skipped", "line": h_idx + 1,
+                                 "reason": f"sounding at line {h_idx + 1}: {exc.reason}"})
+                continue
+            profiles.append(ds)
+            continue
         raw, ok = _data_block(block, linenos, quality)
         raw = {k: v[ok] for k, v in raw.items()}
         linenos = linenos[ok]
@@ -196,8 +239,8 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
         ws = _scaled(raw["wspd"], 0.1, "wspd", linenos, quality)
         surface = np.flatnonzero(raw["lvltyp2"] == 1)
         elevation = float(z[surface[0]]) if surface.size and np.isfinite(z[surface[0]]) else np.nan
-        lat = header["lat"] / 1e4 if header["lat"] not in (None, -99999) else np.nan
-        lon = header["lon"] / 1e4 if header["lon"] not in (None, -999999) else np.nan
+        lat = header["lat"] / 1e4 if header["lat"] not in (None, -99999, -999999) else np.nan
+        lon = header["lon"] / 1e4 if header["lon"] not in (None, -99999, -999999) else np.nan
         try:
             ds = build_profile(p, t, height=z, dewpoint=t - dpd,
                                relative_humidity=rh if np.isfinite(rh).any() else None,
@@ -219,6 +262,41 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
         profiles[0].attrs["quality"] = list(profiles[0].attrs["quality"]) + [
             dict(e, scope="file") for e in loose + failures]
     return profiles
+
+
+def _derived_profile(block, linenos, header, time, quality, source):
+    """One sounding of a derived-parameter file as a profile (see the module notes for the columns)."""
+    quality.append({"level": None, "action": "note", "reason": "IGRA v2 derived-parameter record: pressure, "
+                    "height, temperature, relative humidity and wind read; the derived quantities are not used; "
+                    "the file gives no station position"})
+    raw, ok = _data_block(block, linenos, quality, _DERIVED_FIELDS)
+    raw = {k: v[ok] for k, v in raw.items()}
+    linenos = linenos[ok]
+    p = _scaled(raw["press"], 0.01, "press", linenos, quality)
+    rep = _scaled(raw["repgph"], 1.0, "repgph", linenos, [])
+    calc = _scaled(raw["calcgph"], 1.0, "calcgph", linenos, [])
+    z = np.where(np.isfinite(rep), rep, calc)
+    from_calc = ~np.isfinite(rep) & np.isfinite(calc)
+    if from_calc.any():
+        quality.append({"level": None, "action": "filled", "variable": "height", "count": int(from_calc.sum()),
+                        "lines": [int(x) for x in linenos[from_calc]],
+                        "reason": "height not reported: IGRA's calculated height (CALCGPH) used"})
+    tk = _scaled(raw["temp"], 0.1, "temp", linenos, quality)
+    try:
+        check_temperature_unit(tk, "K", name="TEMP (tenths of K in the derived-parameter layout)")
+    except ProfileQualityError as exc:
+        raise ProfileQualityError(exc.reason) from None
+    reprh = _scaled(raw["reprh"], 0.1, "reprh", linenos, quality)
+    calcrh = _scaled(raw["calcrh"], 0.1, "calcrh", linenos, [])
+    rh = np.where(np.isfinite(reprh), reprh, calcrh)
+    u = _scaled(raw["uwnd"], 0.1, "uwnd", linenos, [])
+    v = _scaled(raw["vwnd"], 0.1, "vwnd", linenos, [])
+    ws = np.hypot(u, v)
+    wd = np.where(ws > 0, np.degrees(np.arctan2(-u, -v)) % 360.0, 0.0)
+    wd[~np.isfinite(ws)] = np.nan
+    return build_profile(p, tk - 273.15, height=z, relative_humidity=rh if np.isfinite(rh).any() else None,
+                         wind_speed=ws, wind_direction=wd, station=header["id"].strip(), time=time, source=source,
+                         format=FORMAT, lines=linenos, quality=quality)
 
 
 def read(path, start=None, end=None, **options) -> list:

@@ -34,7 +34,7 @@ GRIB2 (through cfgrib, tested with cfgrib 0.9.15 and ecCodes 2.50 on files writt
 with ``typeOfLevel=isobaricInhPa`` are read; cfgrib writes no ``*.idx`` index file; a corrupted message, or a
 field whose levels or times do not fit the others (which cfgrib by default only logs and leaves out), is an
 error. Reference time x forecast step become one dimension of valid times (a valid time given twice, as by two
-overlapping runs, is an error); one pressure level gives a ``level`` dimension of size 1. Latitudes and
+overlapping runs, is an error); a file with one pressure level is an error (a profile needs two). Latitudes and
 longitudes of a regular_ll grid are rebuilt from the GRIB grid definition and scanning mode, because cfgrib
 labels grids scanned east to west, or written across Greenwich as 358..1 degrees east, in another order than
 their values.
@@ -51,7 +51,7 @@ import xarray as xr
 
 from icing.errors import SoundingFormatError
 from icing.physics import thermo
-from icing.profile import RH_MAX, T_RANGE, VARIABLES
+from icing.profile import P_RANGE, RH_MAX, T_RANGE, VARIABLES, Z_RANGE
 from icing.units import ureg
 
 __all__ = ["read_model", "normalise_model", "sniff_grib", "FORMAT_NETCDF", "FORMAT_GRIB"]
@@ -381,6 +381,16 @@ def normalise_model(ds: xr.Dataset, *, source="", format=FORMAT_NETCDF) -> xr.Da
     if not any(names[q] for q in ("relative_humidity", "specific_humidity", "dewpoint")):
         raise SoundingFormatError("no humidity (relative_humidity r, specific_humidity q or "
                                   "dew_point_temperature)", file=src)
+    if "_plev" not in ds[names["temperature"]].dims:
+        raise SoundingFormatError(f"temperature {names['temperature']!r} has dims {ds[names['temperature']].dims}: "
+                                  f"no pressure-level dimension {zname!r}, so it is not a profile", file=src)
+    if ds.sizes["_plev"] < 2:
+        raise SoundingFormatError(f"only {ds.sizes['_plev']} pressure level ({zname}): a profile needs at least two "
+                                  "levels", file=src)
+    for c, lim in (("latitude", 90.0), ("longitude", 360.0)):
+        vals = np.asarray(ds[c].values, dtype=float)
+        if not np.all(np.isfinite(vals)) or np.any(np.abs(vals) > lim):
+            raise SoundingFormatError(f"{c} values outside -{lim:g}..{lim:g} or not finite", file=src)
     dims = ("time", "latitude", "longitude", "_plev")
     for q, vname in names.items():
         if vname is None:
@@ -417,6 +427,15 @@ def normalise_model(ds: xr.Dataset, *, source="", format=FORMAT_NETCDF) -> xr.Da
     if plev_units is None:
         raise SoundingFormatError(f"pressure coordinate {zname!r} has no units attribute", file=src)
     p_hpa = _convert(plev_var.assign_attrs(units=plev_units), "hPa", zname, src).values.astype(float)
+    with np.errstate(invalid="ignore"):
+        bad = ~((p_hpa >= P_RANGE[0]) & (p_hpa <= P_RANGE[1]))
+    if bad.any():
+        hint = " (hPa labelled Pa?)" if np.nanmax(np.abs(p_hpa)) < 12.0 else \
+            " (Pa labelled hPa?)" if np.nanmin(p_hpa) > P_RANGE[1] else ""
+        raise SoundingFormatError(f"pressure levels {', '.join(f'{v:g}' for v in p_hpa[bad][:5])} hPa outside "
+                                  f"{P_RANGE[0]:g}..{P_RANGE[1]:g} hPa{hint}", file=src)
+    if np.unique(p_hpa).size != p_hpa.size:
+        raise SoundingFormatError("a pressure level occurs twice", file=src)
     order = np.argsort(-p_hpa, kind="stable")
     if not np.array_equal(order, np.arange(p_hpa.size)):
         ds = ds.isel(_plev=order)
@@ -467,10 +486,11 @@ def _fields(ds, names, p_hpa, quality, src):
                   "converted to percent"})
         else:
             rh = _convert(ds[vname], "percent", vname, src)
-        too_high = rh > RH_MAX
+        too_high = (rh > RH_MAX) | (rh < -5.0)  # a few percent below zero is numerical noise of a model
         capped = (rh > 100.0) & ~too_high
         rh = rh.where(~too_high).clip(min=0.0, max=100.0)
-        note({"level": None, "action": "removed", "reason": f"relative humidity above {RH_MAX:.0f} % set missing",
+        note({"level": None, "action": "removed", "reason": f"relative humidity above {RH_MAX:.0f} % or below -5 % set "
+              "missing (-5..0 % set to 0)",
               "variable": "relative_humidity", **_count(too_high)})
         note({"level": None, "action": "changed", "reason": "relative humidity 100-105 % set to 100 %",
               "variable": "relative_humidity", **_count(capped)})
@@ -507,6 +527,10 @@ def _fields(ds, names, p_hpa, quality, src):
                            output_core_dims=[["level"]], dask="parallelized", output_dtypes=[float])
         note({"level": None, "action": "filled", "reason": "no geopotential: heights by the hypsometric equation "
               "anchored at the standard-atmosphere height of the lowest level", "variable": "height"})
+    bad_z = ~((z >= Z_RANGE[0]) & (z <= Z_RANGE[1])) & z.notnull()
+    z = z.where(~bad_z)
+    note({"level": None, "action": "removed", "reason": f"heights outside {Z_RANGE[0]:.0f}..{Z_RANGE[1]:.0f} m (or "
+          "infinite) set missing", "variable": "height", **_count(bad_z)})
     data = {"pressure": pressure, "temperature": t, "dewpoint": td, "relative_humidity": rh, "height": z}
     if names["cloud_liquid_concentration"]:
         data["cloud_liquid"] = get("cloud_liquid_concentration", "g/m^3")
@@ -520,6 +544,11 @@ def _fields(ds, names, p_hpa, quality, src):
         v = get("northward_wind", "m/s")
         data["wind_speed"] = np.hypot(u, v)
         data["wind_direction"] = (np.degrees(np.arctan2(-u, -v)) % 360.0)
+        bad_w = ~(data["wind_speed"] <= 150.0) & data["wind_speed"].notnull()
+        for k in ("wind_speed", "wind_direction"):
+            data[k] = data[k].where(~bad_w)
+        note({"level": None, "action": "removed", "reason": "wind speeds above 150 m/s (or infinite) set missing",
+              "variable": "wind_speed", **_count(bad_w)})
     if names["surface_pressure"]:
         ps = get("surface_pressure", "hPa")
         below = pressure > ps

@@ -12,6 +12,7 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import pandas as pd
 import xarray as xr
 
 from icing.errors import ProfileQualityError, SoundingFormatError
@@ -30,50 +31,153 @@ def sniff(head: bytes, path) -> bool:
 
 
 def write(profile, path):
-    """Write a profile (or stacked profiles) to netCDF4 with h5netcdf; ``read`` gives them back."""
+    """Write a profile (or stacked profiles) to netCDF4 with h5netcdf; ``read`` gives them back exactly.
+
+    The file follows the CF conventions (1.8) for discrete sampling geometries, featureType ``profile``:
+    station (``cf_role = "profile_id"``), latitude, longitude, time and station elevation are variables
+    (scalars, or along ``profile``), pressure is the vertical coordinate (``axis = "Z"``, ``positive =
+    "down"``), every data variable names them in ``coordinates``; ``standard_name`` only where the CF table has
+    one; ``qc_flag`` carries ``flag_masks`` and ``flag_meanings`` and no units. The quality record is the JSON
+    global attribute ``quality_json``.
+    """
     ds = profile.copy()
-    ds.attrs = dict(ds.attrs)
-    ds.attrs["quality_json"] = json.dumps(ds.attrs.pop("quality", []))
-    ds.attrs["featureType"] = "profile"
-    ds.attrs["Conventions"] = "CF-1.8"
-    ds.attrs["icing_profile"] = 1
+    attrs = dict(ds.attrs)
+    quality = attrs.pop("quality", [])
+    stacked = "profile" in ds.dims
+    if not stacked:
+        meta = {k: attrs.pop(k, None) for k in ("station", "latitude", "longitude", "elevation", "time")}
+        ds["station"] = ((), str(meta["station"] or ""))
+        for k in ("latitude", "longitude", "elevation"):
+            ds[k] = ((), _attr_float(meta[k]))
+        t = meta["time"]
+        ds["time"] = ((), np.datetime64(str(t).rstrip("Z"), "s") if t else np.datetime64("NaT", "s"))
     for k in ("station", "source", "format"):
         if k in ds and ds[k].dtype == object:
             ds[k] = ds[k].astype(str)
-    for k, v in list(ds.attrs.items()):
+    ds["station"].attrs = {"cf_role": "profile_id", "long_name": "station identifier"}
+    ds["latitude"].attrs = {"units": "degrees_north", "standard_name": "latitude", "long_name": "station latitude"}
+    ds["longitude"].attrs = {"units": "degrees_east", "standard_name": "longitude",
+                             "long_name": "station longitude"}
+    ds["elevation"].attrs = {"units": "m", "standard_name": "surface_altitude",
+                             "long_name": "station elevation above mean sea level"}
+    ds["time"].attrs = {"standard_name": "time", "long_name": "valid time (UTC)"}
+    ds["time"].encoding.update(units="seconds since 1970-01-01T00:00:00", calendar="proleptic_gregorian",
+                               dtype="float64")  # CF 1.8 section 2.2 has no 64-bit integers
+    ds["pressure"].attrs.update(axis="Z", positive="down")
+    coords = "time latitude longitude pressure"
+    for name in list(ds.data_vars):
+        if name in VARIABLES and name != "pressure" or name == "qc_flag":
+            ds[name].attrs["coordinates"] = coords
+    ds = ds.drop_vars([c for c in ("level", "profile") if c in ds.coords])
+    for k, v in list(attrs.items()):
         if isinstance(v, float) and np.isnan(v):
-            ds.attrs[k] = "NaN"
+            attrs[k] = "NaN"
+        elif not isinstance(v, str | int | float | np.integer | np.floating):
+            attrs[k] = json.dumps(v, default=str)
+    attrs.update(quality_json=json.dumps(quality, default=_json_default), featureType="profile",
+                 Conventions="CF-1.8", icing_profile=1)
+    attrs.setdefault("title", "upper-air profile" + ("s" if stacked else "") + " (icing canonical profile)")
+    attrs.setdefault("history", "written by the icing library (icing.io.netcdf.write)")
+    ds.attrs = attrs
     ds.to_netcdf(path, engine="h5netcdf")
 
 
+def _json_default(v):
+    if isinstance(v, np.integer):
+        return int(v)
+    if isinstance(v, np.floating):
+        return float(v)
+    return str(v)
+
+
 def _open(path):
-    try:
-        return xr.open_dataset(path, engine="h5netcdf", decode_times=True)
-    except Exception as exc:
+    errors = []
+    for engine in ("h5netcdf", None):
         try:
-            return xr.open_dataset(path, decode_times=True)
-        except Exception:
-            raise SoundingFormatError(f"cannot open as netCDF: {exc}", file=path) from None
+            return xr.open_dataset(path, engine=engine, decode_times=True)
+        except Exception as exc:  # each backend raises its own types
+            errors.append(exc)
+    try:
+        with xr.open_dataset(path, decode_times=False):
+            pass
+    except Exception:
+        raise SoundingFormatError(f"cannot open as netCDF: {str(errors[0])[:200]}", file=path) from None
+    raise SoundingFormatError(f"a time variable cannot be decoded: {str(errors[-1])[:200]}", file=path)
 
 
-def read(path, **options):
-    """Read every profile in a netCDF file."""
-    with _open(path) as ds:
+def read(path, units=None, **options):
+    """Read every profile in a netCDF file.
+
+    ``units``: a mapping variable -> unit for variables of a CF file that have no ``units`` attribute.
+
+    Raises
+    ------
+    SoundingFormatError
+        Not netCDF, an undecodable time, a broken quality record, no temperature or pressure variable, a
+        variable without units; :class:`ProfileQualityError` for values that fail the profile checks.
+    """
+    if options:
+        raise SoundingFormatError(f"unknown netCDF reader option(s): {', '.join(options)}", file=path)
+    ds = _open(path)
+    try:
         ds.load()
+    except Exception as exc:
+        raise SoundingFormatError(f"cannot read the data: {str(exc)[:200]}", file=path) from None
+    finally:
+        ds.close()
     if ds.attrs.get("icing_profile"):
         return _read_own(ds, path)
-    return _read_cf(ds, path)
+    return _read_cf(ds, path, units or {})
 
 
 def _attr_float(v):
     try:
         return float(v)
-    except (TypeError, ValueError):
+    except (TypeError, ValueError, OverflowError):
         return np.nan
 
 
+def _quality_record(ds, path):
+    text = ds.attrs.get("quality_json", "[]")
+    try:
+        quality = json.loads(str(text))
+    except (ValueError, RecursionError) as exc:
+        raise SoundingFormatError(f"global attribute quality_json is not valid JSON: {exc}", file=path) from None
+    if not isinstance(quality, list) or not all(isinstance(e, dict) for e in quality):
+        raise SoundingFormatError("global attribute quality_json is not a list of entries (JSON objects)",
+                                  file=path)
+    return quality
+
+
+def _time_text(t, path):
+    """ISO text of a time value read from a file (datetime64, text, None); SoundingFormatError if not a time."""
+    if t is None:
+        return None
+    if isinstance(t, np.ndarray):
+        t = t.item() if t.size == 1 else None
+    if isinstance(t, bytes):
+        t = t.decode("utf-8", errors="replace")
+    if isinstance(t, np.datetime64):
+        return None if np.isnat(t) else str(t)
+    if isinstance(t, int | np.integer):  # numpy datetime64 .item() at ns gives int
+        return str(np.datetime64(int(t), "ns"))
+    if isinstance(t, float | np.floating) and np.isnan(t):
+        return None
+    text = str(t).strip()
+    if not text or text in ("NaT", "NaN"):
+        return None
+    try:
+        ts = pd.Timestamp(text)
+    except (ValueError, TypeError, OverflowError) as exc:
+        raise SoundingFormatError(f"time {text[:40]!r} is not a date and time ({exc})", file=path) from None
+    return None if ts is pd.NaT else text
+
+
 def _read_own(ds, path):
-    quality = json.loads(ds.attrs.get("quality_json", "[]"))
+    quality = _quality_record(ds, path)
+    for need in ("pressure", "temperature"):
+        if need not in ds.variables:
+            raise SoundingFormatError(f"no {need} variable in a profile file written by this library", file=path)
     if "profile" in ds.dims:
         singles = [ds.isel(profile=i) for i in range(ds.sizes["profile"])]
     else:
@@ -82,31 +186,41 @@ def _read_own(ds, path):
     for i, one in enumerate(singles):
         kw = {}
         for name in VARIABLES:
-            if name in one:
-                kw[name] = one[name].values
+            if name in one.variables:
+                if one[name].ndim != 1:
+                    raise SoundingFormatError(f"variable {name!r} has dims {one[name].dims}; one level "
+                                              "dimension is needed", file=path)
+                try:
+                    kw[name] = np.asarray(one[name].values, dtype=float)
+                except (TypeError, ValueError) as exc:
+                    raise SoundingFormatError(f"variable {name!r} is not numeric: {exc}", file=path) from None
         meta = {}
         for k in ("station", "source", "format", "latitude", "longitude", "elevation", "time"):
             if k in one.variables and k not in one.dims:
                 meta[k] = one[k].values.item() if one[k].ndim == 0 else one[k].values
             elif k in one.attrs:
                 meta[k] = one.attrs[k]
-        t = meta.get("time")
-        if isinstance(t, np.datetime64):
-            t = None if np.isnat(t) else str(t)
-        if isinstance(t, int | np.integer):  # numpy datetime64 .item() at ns gives int
-            t = str(np.datetime64(t, "ns"))
+        t = _time_text(meta.get("time"), path)
         q = [e for e in quality if e.get("profile", i) == i] if "profile" in ds.dims else quality
         q = [{k: v for k, v in e.items() if k != "profile"} for e in q]
         ok = np.isfinite(kw["pressure"])
         kw = {k: v[ok] for k, v in kw.items()}
+        station = meta.get("station", "")
+        station = station.decode("utf-8", errors="replace") if isinstance(station, bytes) else str(station)
         try:
-            prof = build_profile(kw.pop("pressure"), kw.pop("temperature"), **kw,
-                                 station=meta.get("station", ""), latitude=_attr_float(meta.get("latitude")),
+            prof = build_profile(kw.pop("pressure"), kw.pop("temperature"), **kw, station=station,
+                                 latitude=_attr_float(meta.get("latitude")),
                                  longitude=_attr_float(meta.get("longitude")),
-                                 elevation=_attr_float(meta.get("elevation")), time=t or None,
+                                 elevation=_attr_float(meta.get("elevation")), time=t,
                                  source=str(path), format=FORMAT, quality=q)
         except ProfileQualityError as exc:
             raise ProfileQualityError(exc.reason, file=path) from None
+        # A file this library wrote passes the checks unchanged: keep its QC flags (the filled-height and
+        # derived-dewpoint bits cannot be seen again once the values are filled in).
+        if "qc_flag" in one.variables and prof.attrs["quality"] == q and one["qc_flag"].ndim == 1:
+            flags = np.asarray(one["qc_flag"].values)[ok]
+            if flags.size == prof.sizes["level"] and np.all(np.isfinite(flags)):
+                prof["qc_flag"].values[:] = flags.astype(np.int32)
         prof.attrs["original_format"] = str(meta.get("format", ""))
         for k, v in one.attrs.items():
             if k in ("name", "scenario"):
@@ -115,10 +229,13 @@ def _read_own(ds, path):
     return out
 
 
-def _quantity(var, name, path):
+def _quantity(var, name, path, units=None):
     unit = var.attrs.get("units")
     if unit is None:
-        raise SoundingFormatError(f"variable {var.name!r} ({name}) has no units attribute", file=path)
+        unit = (units or {}).get(name, (units or {}).get(str(var.name)))
+    if unit is None:
+        raise SoundingFormatError(f"variable {var.name!r} ({name}) has no units attribute (give it with "
+                                  f"units={{'{name}': '...'}})", file=path)
     try:
         u = parse_unit(str(unit))
     except Exception as exc:
@@ -128,7 +245,7 @@ def _quantity(var, name, path):
     return Quantity(np.asarray(var.values, dtype=float), u)
 
 
-def _read_cf(ds, path):
+def _read_cf(ds, path, units):
     found = {}
     for vname, var in ds.variables.items():
         std = var.attrs.get("standard_name")
@@ -166,15 +283,17 @@ def _read_cf(ds, path):
             var = pick(ds[vname])
             if var.ndim == 0:  # a scalar pressure or height (e.g. surface) is not a profile variable
                 continue
-            kw[name] = _quantity(var, name, path)
+            kw[name] = _quantity(var, name, path, units)
         meta = {}
         for k, var in coords.items():
             v = pick(var)
             vals = np.atleast_1d(v.values)
             meta[k] = vals[0] if vals.size else None
         t = meta.get("time")
-        if t is not None and isinstance(t, np.datetime64):
-            t = None if np.isnat(t) else str(t)
+        t = _time_text(t, path) if isinstance(t, np.datetime64 | str | bytes) else None
+        if "pressure" not in kw or "temperature" not in kw:
+            raise SoundingFormatError("air_pressure and air_temperature must both vary along the vertical "
+                                      "dimension", file=path)
         station = ""
         for cand in ("station_id", "station", "platform_id", "wmo_id"):
             if cand in ds.variables:
