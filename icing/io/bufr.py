@@ -395,6 +395,10 @@ def _message_profiles(ec, h, message, source, skipped, refused, message_subsets)
     compressed = bool(ec.codes_get(h, "compressedData"))
     template = _template(ec, h)
     subsets, values = message_subsets(ec, h, nsub, compressed)
+    if len(subsets) != nsub:  # never seen; guards the split of an uncompressed message at subsetNumber keys
+        skipped.append({"level": None, "action": "skipped", "reason": f"message {message}: {nsub} subsets in "
+                        f"section 3 but the elements of {len(subsets)} decoded; message not read"})
+        return []
     if not any(b.kind == "levels" for sub in subsets for b in sub.blocks):
         try:
             category = int(ec.codes_get(h, "dataCategory"))
