@@ -2,8 +2,7 @@
 
 These are tests of equality between two ways of computing the same thing inside the project (the physics
 itself is checked against published values and MetPy in test_diagnose.py, test_layers.py, test_thermo.py
-and test_microphysics.py): the tabulated Appendix C stratiform cap against the bisection through the
-public envelope and MVD functions, the kernel's relative humidities (shared logarithms) against
+and test_microphysics.py): the kernel's relative humidities (shared logarithms) against
 icing.physics.thermo, the Bourgouin energy areas against a direct numpy transcription of Bourgouin (2000)
 eq. 1 over every interval, the compiled kernel against the same functions run uncompiled, and the block
 threads against one thread.
@@ -24,31 +23,6 @@ from icing.errors import ConfigError
 from icing.physics import diagnose as diag
 from icing.physics import precipitation, thermo
 from icing.physics.diagnose import diagnose_arrays
-
-AIRMASSES = [("continental", 290e6), ("marine", 75e6), (150.0, 150e6), (20.0, 20e6), (2000.0, 2000e6)]
-
-
-def _levels(n, seed):
-    rng = np.random.default_rng(seed)
-    lwc = rng.uniform(0.0, 2.5, n)
-    lwc[rng.random(n) < 0.2] = 0.0
-    t = rng.uniform(228.0, 280.0, n)
-    t[: n // 10] = np.round(t[: n // 10])  # whole kelvins and the table's own temperatures
-    kind = rng.integers(0, 3, n).astype(np.int8)
-    model = rng.random(n) < 0.05
-    return lwc, kind, t, model
-
-
-@pytest.mark.parametrize(("airmass", "n_drop"), AIRMASSES)
-def test_tabulated_cap_equals_bisection(airmass, n_drop):
-    """The tabulated stratiform cap, interpolated, equals the bisection at each level's own temperature
-    (through icing.physics.envelopes.continuous_max_lwc_si and icing.physics.microphysics.median_volume_diameter)
-    within 1e-5 g/m3 (the table is linear between 0.005 K points; kinks of the envelope cost a few 1e-6)."""
-    _, _, t, _ = _levels(60_000, 3)
-    tc = np.clip(t - thermo.T0, -30.0, 0.0)
-    table_t, table_cap = diag._cap_table(airmass, n_drop)
-    assert_allclose(np.interp(tc, table_t, table_cap), diag._cap_by_bisection(tc, airmass, n_drop), rtol=0,
-                    atol=1e-5)
 
 
 def test_relative_humidities_equal_thermo():

@@ -39,9 +39,8 @@ CLOUD_DEFAULTS = {
     "low_cloud_limit_m": 2000.0,
     "liquid_rh": None,               # RH over water for liquid to be possible; None: the min_rh threshold
     "convective_excess_k": 0.5,      # our own choice: parcel from the base warmer than the air by this = convective
-    "stratiform_factor": None,       # sub-adiabatic factors (see icing.physics.microphysics.SUBADIABATIC_FACTOR)
-    "convective_factor": None,
-    "stratiform_cap": True,          # stratiform LWC at most the Part 25 Appendix C continuous maximum (see diagnose)
+    "stratiform_factor": None,       # constant LWC/LWC_ad by cloud kind instead of the depth profile of
+    "convective_factor": None,       # icing.physics.microphysics.adiabatic_fraction (None: the profile)
     "drizzle_top_temperature": 263.15,  # K, warm-topped cloud: Huffman and Norman (1988), Rauber et al. (2000)
     "drizzle_min_thickness_m": 300.0,   # common practice, our own choice: depth for coalescence to work
     "melting_area_aloft": 2.0,          # J/kg, Bourgouin (2000)

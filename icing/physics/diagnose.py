@@ -22,7 +22,7 @@ import xarray as xr
 
 from icing import CAUTION
 from icing.errors import ConfigError
-from icing.physics import adiabat, cloud, envelopes, microphysics, precipitation, thermo
+from icing.physics import adiabat, cloud, microphysics, precipitation, thermo
 from icing.physics.jit import jitable
 from icing.units import dataarray_to_unit, ureg
 
@@ -53,37 +53,6 @@ def _fill_gaps(p, v):
     xp = np.where(np.isfinite(v[rows]), x, np.nan)
     out[rows] = np.where(np.isfinite(v[rows]), v[rows], thermo.interp_last_axis(x, xp, v[rows]))
     return out
-
-
-def _cap_by_bisection(tc, airmass, n_drop):
-    """The self-consistent cap L* (g/m3) at temperatures ``tc`` (degC, -30..0) by 30 halvings of 0..1 g/m3."""
-    lo = np.zeros(tc.shape)
-    hi = np.full(tc.shape, 1.0)  # above every envelope value (0.8 g/m3 at most)
-    for _ in range(30):  # bisection on envelope(MVD(L)) - L, which falls with L
-        mid = 0.5 * (lo + hi)
-        mvd = microphysics.median_volume_diameter(mid / 1000.0, airmass, number_concentration=n_drop) * 1e6
-        above = envelopes.continuous_max_lwc_si(np.clip(mvd, 15.0, 40.0), tc) > mid
-        lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
-    return 0.5 * (lo + hi)
-
-
-@functools.lru_cache(maxsize=16)
-def _cap_table(airmass, n_drop):
-    """(temperature degC, cap g/m3) every 0.005 K from -30 to 0 degC for one droplet concentration: the cap
-    that holds supercooled stratiform LWC to the 14 CFR Part 25 Appendix C continuous maximum.
-
-    Adiabatic ascent from the base of a deep layer cloud gives 1-2 g/m3 or more near its top, while the
-    measured extremes of layer-cloud icing on which the continuous-maximum envelope rests (NACA TN-1855 and
-    the studies behind Appendix C) stay below about 0.8 g/m3; deep layer cloud loses water to entrainment,
-    precipitation and ice. The cap is our design rule, not a published parameterisation. The envelope falls
-    with MVD and the MVD grows with LWC, so the cap is the self-consistent value L* = envelope(MVD(L*), T)
-    (temperature held to 0..-30 degC, MVD to 15..40 um), which depends only on the temperature and the
-    droplet concentration: the capped LWC still grows with the adiabatic LWC. It is tabulated once per
-    droplet concentration every 0.005 K by bisection (:func:`_cap_table`) and interpolated (within 1e-5 g/m3
-    of the bisection at the level's own temperature). Convective cloud is not capped.
-    """
-    tc = np.linspace(-30.0, 0.0, 6001)
-    return tc, _cap_by_bisection(tc, airmass, n_drop)
 
 
 def _thread_count(threads):
@@ -130,8 +99,8 @@ COLUMN_SETTINGS = cloud.CLOUD_SETTINGS + ("convective_excess_k", "stratiform_fac
 
 @jitable
 def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh_table, max_rh_table,
-                    inter_rh_table, adiabats, cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f, out_b, out_i,
-                    scratch_f, scratch_b, scratch_i):
+                    inter_rh_table, adiabats, n_drop, mvd_ratio, out_f, out_b, out_i, scratch_f, scratch_b,
+                    scratch_i):
     """The icing diagnostics of one column (levels with pressure decreasing; gaps in t, td, z filled).
 
     Parameters
@@ -142,14 +111,12 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     cold_limit : float
         Coldest temperature of supercooled liquid (K).
     settings : ndarray
-        The values of :data:`COLUMN_SETTINGS` (``liquid_rh`` NaN for the cloud threshold itself;
-        sub-adiabatic factors resolved).
+        The values of :data:`COLUMN_SETTINGS` (``liquid_rh`` NaN for the cloud threshold itself; the
+        sub-adiabatic factors NaN for the depth profile of :func:`icing.physics.microphysics.adiabatic_fraction`).
     heights, min_rh_table, max_rh_table, inter_rh_table : ndarray (4,)
         The cloud thresholds (:mod:`icing.physics.cloud`).
     adiabats : tuple
         :func:`icing.physics.adiabat.moist_adiabat_tables`.
-    cap_t, cap_v, use_cap :
-        The stratiform LWC cap table (temperature degC, cap g/m3) and whether it applies.
     n_drop, mvd_ratio : float
         Droplet number (per m3) and the ratio of median to mean volume diameter of the spectrum.
     out_f : ndarray (5, n)
@@ -158,7 +125,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         Output rows: in cloud, supercooled, warm layer aloft.
     out_i : ndarray of int8 (2, n)
         Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective).
-    scratch_f, scratch_b, scratch_i : ndarray (9, n), (6, n), (6, n)
+    scratch_f, scratch_b, scratch_i : ndarray (10, n), (6, n), (6, n)
         Work space (float, bool, int64).
 
     Returns
@@ -173,10 +140,10 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     supercooled where in cloud, between ``cold_limit`` and 0 degC, with RH over water at least the cloud
     threshold (liquid possible) or model cloud liquid; cloud kind convective where the parcel from the layer
     base gets warmer than the air by more than ``convective_excess_k``; LWC = adiabatic LWC from each layer base
-    x sub-adiabatic factor by kind x liquid fraction (Hu et al. 2010) at supercooled and warm cloud levels, or
-    the model's cloud liquid; MVD from LWC and the droplet number; precipitation type by Bourgouin (2000);
-    large drops: freezing rain where melted precipitation falls into sub-freezing air, freezing drizzle under
-    warm-topped supercooled cloud.
+    x the fraction of it left at that height above the base (Karstens et al. 1994) x liquid fraction (Hu et
+    al. 2010) at supercooled and warm cloud levels, or the model's cloud liquid; MVD from LWC and the droplet
+    number; precipitation type by Bourgouin (2000); large drops: freezing rain where melted precipitation
+    falls into sub-freezing air, freezing drizzle under warm-topped supercooled cloud.
     """
     n = t.size
     conv_excess, f_strat, f_conv = settings[7], settings[8], settings[9]
@@ -186,7 +153,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     large, kind = out_i[0], out_i[1]
     lnt, rh_c, z_agl, min_rh, zb, parcel, lwc_ad, area = (scratch_f[0], scratch_f[1], scratch_f[2], scratch_f[3],
                                                           scratch_f[4], scratch_f[5], scratch_f[6], scratch_f[7])
-    layer_area = scratch_f[8]
+    layer_area, above_base = scratch_f[8], scratch_f[9]
     model, drizzle_src, layer_rain = scratch_b[2], scratch_b[3], scratch_b[4]
     starts, ends = scratch_i[2], scratch_i[3]
     layer_start, layer_of = scratch_i[4], scratch_i[5]
@@ -230,8 +197,10 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         lwc_ad[k] = 0.0
     for r in range(nr):
         excess = adiabat.parcel_in_layer(p, lnp, t, starts[r], ends[r], adiabats, parcel, lwc_ad)
+        base = cloud.run_bounds(z_agl, zb, starts[r], ends[r])[0]
         for k in range(starts[r], ends[r] + 1):
             kind[k] = 2 if excess > conv_excess else 1
+            above_base[k] = max(z_agl[k] - base, 0.0)
     # supercooled levels, liquid fraction, LWC, the stratiform cap, MVD
     for k in range(n):
         tk = t[k]
@@ -248,10 +217,11 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         lf_out[k] = lf
         lwc = 0.0
         if sc or (in_cloud[k] and tk > thermo.T0):
-            lwc = microphysics.cloud_kind_factor(kind[k], f_strat, f_conv) * lwc_ad[k] * lf * 1000.0
-        if use_cap and kind[k] == 1 and (not model[k]) and lwc > 0 and tk < thermo.T0:
-            cap = cloud.interp(min(max(tk - thermo.T0, -30.0), 0.0), cap_t, cap_v)
-            lwc = min(lwc, cap)
+            if f_strat == f_strat:  # constant factors given
+                factor = microphysics.cloud_kind_factor(kind[k], f_strat, f_conv)
+            else:
+                factor = microphysics.adiabatic_fraction(above_base[k])
+            lwc = factor * lwc_ad[k] * lf * 1000.0
         if model[k]:
             lwc = cl[k] * 1000.0 if in_cloud[k] else 0.0
         if not np.isfinite(tk):
@@ -274,11 +244,11 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
 
 
 def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh, max_rh, inter_rh, adiabats,
-                   cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
+                   n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
     """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
     when unused); outputs (5, P, n), (3, P, n), (2, P, n), (P,), (P,)."""
     npro, n = t.shape
-    scratch_f = np.empty((9, n))
+    scratch_f = np.empty((10, n))
     scratch_b = np.empty((6, n), np.bool_)
     scratch_i = np.empty((6, n), np.int64)
     lnp = np.empty(n)
@@ -293,8 +263,8 @@ def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_r
                 lnp[k] = np.log(p[i, k])
         ptype[i], crossings[i] = diagnose_column(
             p[ip], lnp, t[i], td[i], z[i], cl[i if has_cl else 0], has_cl, cold_limit, settings, heights, min_rh,
-            max_rh, inter_rh, adiabats, cap_t, cap_v, use_cap, n_drop, mvd_ratio, out_f[:, i], out_b[:, i],
-            out_i[:, i], scratch_f, scratch_b, scratch_i)
+            max_rh, inter_rh, adiabats, n_drop, mvd_ratio, out_f[:, i], out_b[:, i], out_i[:, i], scratch_f,
+            scratch_b, scratch_i)
 
 
 @functools.lru_cache(maxsize=1)
@@ -307,9 +277,9 @@ def _compiled_rows():
 
     f8, b1, i1 = types.float64, types.boolean, types.int8
     ro1, ro2 = types.Array(f8, 1, "A", readonly=True), types.Array(f8, 2, "A", readonly=True)
-    signature = types.void(ro2, ro2, ro2, ro2, ro2, b1, f8, ro1, ro1, ro1, ro1, ro1, types.UniTuple(ro1, 5), ro1,
-                           ro1, b1, f8, f8, types.Array(f8, 3, "A"), types.Array(b1, 3, "A"),
-                           types.Array(i1, 3, "A"), types.Array(i1, 1, "A"), types.Array(types.int64, 1, "A"))
+    signature = types.void(ro2, ro2, ro2, ro2, ro2, b1, f8, ro1, ro1, ro1, ro1, ro1, types.UniTuple(ro1, 5), f8, f8,
+                           types.Array(f8, 3, "A"), types.Array(b1, 3, "A"), types.Array(i1, 3, "A"),
+                           types.Array(i1, 1, "A"), types.Array(types.int64, 1, "A"))
     return jit(_diagnose_rows, signature)
 
 
@@ -393,14 +363,13 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     npro = t.shape[0]
     settings = np.array([prm[k] for k in cloud.CLOUD_SETTINGS] + [
         prm["convective_excess_k"],
-        microphysics.SUBADIABATIC_FACTOR["stratiform"] if prm["stratiform_factor"] is None
-        else prm["stratiform_factor"],
-        microphysics.SUBADIABATIC_FACTOR["convective"] if prm["convective_factor"] is None
-        else prm["convective_factor"],
+        *((np.nan, np.nan) if prm["stratiform_factor"] is None and prm["convective_factor"] is None else (
+            microphysics.SUBADIABATIC_FACTOR["stratiform"] if prm["stratiform_factor"] is None
+            else prm["stratiform_factor"],
+            microphysics.SUBADIABATIC_FACTOR["convective"] if prm["convective_factor"] is None
+            else prm["convective_factor"])),
         prm["drizzle_top_temperature"], prm["drizzle_min_thickness_m"], prm["melting_area_aloft"],
         np.nan if prm["liquid_rh"] is None else prm["liquid_rh"]], dtype=float)
-    cap_t, cap_v = _cap_table(airmass if isinstance(airmass, str) else float(airmass), float(n_drop)) \
-        if prm["stratiform_cap"] else (np.zeros(2), np.zeros(2))
     tables = (np.asarray(cloud.ZHANG_HEIGHTS_M, dtype=float), np.asarray(prm["min_rh"], dtype=float),
               np.asarray(prm["max_rh"], dtype=float), np.asarray(prm["inter_rh"], dtype=float))
     out_f = np.empty((5, npro, n))
@@ -411,16 +380,14 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     kernel = _compiled_rows()
 
     ro = _read_only
-    shared = (ro(settings), *(ro(a) for a in tables), tuple(ro(a) for a in adiabat.moist_adiabat_tables()),
-              ro(cap_t), ro(cap_v))
+    shared = (ro(settings), *(ro(a) for a in tables), tuple(ro(a) for a in adiabat.moist_adiabat_tables()))
     mvd_ratio = microphysics.mvd_to_mean_volume_ratio(airmass)
 
     def block(i):  # writes into its rows of the outputs; blocks of profiles stay in cache
         sl = slice(i, i + _BLOCK)
         kernel(ro(p if p.shape[0] == 1 else p[sl]), ro(t[sl]), ro(td[sl]), ro(z[sl]),
-               ro(cl if not has_model else cl[sl]), has_model, float(cold_limit), *shared,
-               bool(prm["stratiform_cap"]), float(n_drop), mvd_ratio, out_f[:, sl], out_b[:, sl],
-               out_i[:, sl], ptype[sl], crossings[sl])
+               ro(cl if not has_model else cl[sl]), has_model, float(cold_limit), *shared, float(n_drop), mvd_ratio,
+               out_f[:, sl], out_b[:, sl], out_i[:, sl], ptype[sl], crossings[sl])
 
     starts = range(0, max(npro, 1), _BLOCK)
     if workers > 1 and len(starts) > 1:
@@ -541,10 +508,9 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
         "airmass": str(airmass),
         "lwc_source": "model cloud liquid" if has_model else "adiabatic",
         "lwc_method": ("cloud liquid water from the source model where given" if has_model else
-                       "adiabatic LWC from each cloud base along the moist adiabat x sub-adiabatic factor "
-                       "(stratiform 0.8, convective 0.4) x liquid fraction (Hu et al. 2010)"
-                       + ("; supercooled stratiform LWC held to the Part 25 Appendix C continuous maximum"
-                          if thresholds.get("stratiform_cap", True) else "")),
+                       "adiabatic LWC from each cloud base along the moist adiabat x the fraction left at that "
+                       "height above the base (Karstens et al. 1994) x liquid fraction (Hu et al. 2010); from a "
+                       "sounding alone uncertain by a factor of two either way"),
         "caution": CAUTION,
         "quality": list(profiles.attrs.get("quality", [])),
     })

@@ -15,14 +15,16 @@ from icing.physics.jit import jitable
 
 __all__ = [
     "HOMOGENEOUS_FREEZING_K", "SUBADIABATIC_FACTOR", "DROPLET_NUMBER", "SPECTRAL_SHAPE_K", "RHO_WATER",
-    "liquid_fraction", "check_cold_limit", "subadiabatic_factor", "cloud_kind_factor", "droplet_number_concentration",
+    "liquid_fraction", "check_cold_limit", "adiabatic_fraction", "subadiabatic_factor",
+    "cloud_kind_factor", "droplet_number_concentration",
     "mean_volume_diameter", "mvd_to_mean_volume_ratio", "median_volume_diameter",
 ]
 
 HOMOGENEOUS_FREEZING_K = 224.8  # K: pure water can stay liquid down to about here (homogeneous nucleation)
 RHO_WATER = 1000.0  # kg/m3
 
-# Ratio of the cloud's liquid water content to the adiabatic value, by cloud kind.
+# Constant ratios of the cloud's liquid water content to the adiabatic value, by cloud kind, for users who pass
+# them as stratiform_factor / convective_factor (the default is the depth profile of adiabatic_fraction).
 #   stratiform 0.8: non-drizzling stratocumulus are close to adiabatic; Wood (2012, Mon. Wea. Rev. 140,
 #     2373-2423, section 3) reviews observed adiabaticity of about 0.6-0.9 (from memory).
 #   convective 0.4: cumulus liquid water falls well below adiabatic through entrainment; Warner (1955, Tellus
@@ -87,6 +89,26 @@ def subadiabatic_factor(cloud_kind, stratiform=None, convective=None):
     fs = SUBADIABATIC_FACTOR["stratiform"] if stratiform is None else float(stratiform)
     fc = SUBADIABATIC_FACTOR["convective"] if convective is None else float(convective)
     return cloud_kind_factor(np.asarray(cloud_kind), fs, fc)
+
+
+@jitable
+@jitable
+def adiabatic_fraction(height_above_base):
+    """Ratio of a cloud's liquid water content to the adiabatic value at a height above the cloud base (m).
+
+    .. math:: \\mathrm{LWC} / \\mathrm{LWC_{ad}} = 1.239 - 0.145 \\ln \\Delta h, \\quad \\Delta h
+              \\text{ in m, held to } [0, 1]
+
+    Karstens, Simmer and Ruprecht (1994), Meteorol. Atmos. Phys. 54, 157-171, their fit to the cloud
+    measurements of Warner (1955, Tellus 7, 449-457), used since in retrievals of liquid-water profiles from
+    microwave radiometers (coefficients from memory). It is 1 near the base, about 0.57 at 100 m, 0.24 at
+    1 km, 0.14 at 2 km and 0 from about 5 km up: entrainment, precipitation and ice take more of the water
+    the deeper a parcel rises. Fitted to convective cloud; layer cloud is closer to adiabatic in its lowest
+    few hundred metres and often drier higher up, so an LWC from a sounding alone is uncertain by a factor of
+    two either way. Floats, arrays and the compiled kernels alike.
+    """
+    f = 1.239 - 0.145 * np.log(np.maximum(height_above_base, 1.0))
+    return np.minimum(np.maximum(f, 0.0), 1.0)
 
 
 @jitable
