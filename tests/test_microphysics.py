@@ -164,3 +164,19 @@ def test_bolton_vapour_pressure_against_metpy():
     ref = mpcalc.saturation_vapor_pressure(t * units.degC).to("Pa").magnitude
     got = adiabat.saturation_vapor_pressure_bolton(t + 273.15)
     assert_allclose(got, ref, rtol=5e-3)
+
+
+def test_adiabatic_fraction_follows_the_published_profile():
+    """Karstens, Simmer and Ruprecht (1994) fit to Warner's (1955) cloud measurements, LWC/LWC_ad =
+    1.239 - 0.145 ln(dh / 1 m) (coefficients from memory), recomputed by hand: 0.571 at 100 m, 0.237 at 1 km,
+    0.137 at 2 km; held to 1 near the base and to 0 from exp(1.239 / 0.145) = 5.2 km up; never rising with
+    height."""
+    dh = np.array([0.0, 1.0, 100.0, 1000.0, 2000.0, 5000.0, 6000.0])
+    got = microphysics.adiabatic_fraction(dh)
+    hand = [1.0, 1.0, 1.239 - 0.145 * 4.60517, 1.239 - 0.145 * 6.90776, 1.239 - 0.145 * 7.60090,
+            1.239 - 0.145 * 8.51719, 0.0]
+    assert_allclose(got, hand, atol=1e-4)
+    assert_allclose(got[2:5], [0.571, 0.237, 0.137], atol=1e-3)
+    fine = microphysics.adiabatic_fraction(np.linspace(0.0, 8000.0, 801))
+    assert np.all(np.diff(fine) <= 0.0)
+    assert microphysics.adiabatic_fraction(1000.0) == pytest.approx(got[3])  # floats as arrays
