@@ -124,8 +124,8 @@ def _add_screen_options(sp):
     sp.add_argument("--set", action="append", metavar="KEY=VALUE",
                     help="override one aircraft field (repeatable); e.g. --set tas_cruise_kt=210")
     sp.add_argument("--departure", metavar="ISO",
-                    help="departure time, ISO 8601 UTC, for a route without times; e.g. --departure "
-                    "2026-01-15T05:00Z")
+                    help="departure time, ISO 8601 UTC; when given it is the departure: a route's own times are "
+                    "all moved by the same amount, with a note; e.g. --departure 2026-01-15T05:00Z")
     sp.add_argument("--step", type=float, default=60.0, metavar="SECONDS",
                     help="time between trajectory samples, s (default 60); e.g. --step 30")
     sp.add_argument("--max-distance", type=float, default=300.0, metavar="KM",
