@@ -261,7 +261,7 @@ def _glance(assessment) -> list[str]:
     counts = {w: int((data == w).sum()) for w in DATA_WORDS}
     body = s.get("reference_body_diameter_m")
     body_txt = "" if _missing(body) else f" on the {float(body) * 1000:.0f} mm reference body"
-    partial = counts["partial"] + counts["missing"] > 0
+    partial = counts["partial"] > 0 and counts["missing"] == 0  # totals are lower bounds (unknown with a gap)
     unknown = f" · {counts['missing']} segment{'s' if counts['missing'] != 1 else ''} unknown" \
         if counts["missing"] else ""
     cards = [("worst", _intensity_badge(worst, "ok") + _e(where + unknown)),
@@ -273,8 +273,10 @@ def _glance(assessment) -> list[str]:
     best = s.get("best_altitude_plan_accretion_mm")
     cards.append(("at the best altitudes", f"<b>{_e(_fmt(best, 'accretion_mm'))} mm</b>"
                   if not _missing(best) else "n/a: a segment has no alternative with full data"))
+    notes = [f"<li>{_e(n)}</li>" for n in s.get("notes") or []]
     return ['<section class="glance" aria-label="at a glance">'] + [
-        f'<div class="card"><span class="k">{_e(k)}</span>{v}</div>' for k, v in cards] + ["</section>"]
+        f'<div class="card"><span class="k">{_e(k)}</span>{v}</div>' for k, v in cards] + ["</section>"] + (
+        ['<ul class="notes" aria-label="notes">'] + notes + ["</ul>"] if notes else [])
 
 
 def _detail_items(row) -> list[tuple[str, str]]:

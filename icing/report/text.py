@@ -60,10 +60,19 @@ def segment_table(assessment) -> str:
     for row in rows:
         out.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
     out.append("")
-    out.append(f"Total in icing: {_num(s.get('total_icing_minutes'), 0)} min; total accretion "
-               f"{_num(s.get('total_accretion_mm'))} mm on the reference body; worst: "
-               + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
-                  s["worst_intensity"]) + ".")
+    if is_missing(s.get("total_icing_minutes")):  # a segment without data: the totals are unknown
+        known = s.get("worst_known_segment")
+        out.append("Total in icing: UNKNOWN (a segment has no data); worst: unknown"
+                   + (f"; worst where data exist: segment {known} ({s.get('worst_known_intensity')})"
+                      if known else "") + ".")
+    else:
+        bound = "at least " if s.get("totals_lower_bound") else ""
+        out.append(f"Total in icing: {bound}{_num(s.get('total_icing_minutes'), 0)} min; total accretion "
+                   f"{bound}{_num(s.get('total_accretion_mm'))} mm on the reference body; worst: "
+                   + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
+                      s["worst_intensity"]) + ".")
+    for note in s.get("notes") or []:
+        out.append(f"Note: {note}")
     best = s.get("best_altitude_plan_accretion_mm")
     offs = s.get("alternative_offsets_ft") or [0.0]
     span = f"{min(offs):+,.0f} to {max(offs):+,.0f} ft"
