@@ -112,3 +112,96 @@ def test_stack_profiles_pads_levels():
     assert s.sizes == {"profile": 2, "level": 5}
     assert np.isnan(s["temperature"].values[1, 3])
     assert list(s["station"].values) == ["A", "B"]
+
+
+# --- validation of every level (issue 16) --------------------------------------------------------------------
+
+Z = np.array([100.0, 760.0, 1450.0, 2950.0, 5500.0])
+
+
+def _thickness(p_bottom, p_top):
+    """Hypsometric thickness (m) of the P/T/TD profile between two of its pressures, by MetPy."""
+    sel = (P <= p_bottom) & (P >= p_top)
+    rh = mpcalc.relative_humidity_from_dewpoint(T[sel] * units.degC, TD[sel] * units.degC)
+    w = mpcalc.mixing_ratio_from_relative_humidity(P[sel] * units.hPa, T[sel] * units.degC, rh)
+    return mpcalc.thickness_hydrostatic(P[sel] * units.hPa, T[sel] * units.degC, mixing_ratio=w).m_as("m")
+
+
+def test_infinite_and_out_of_range_values_never_kept():
+    """inf temperature removed; pressures 4067 hPa and 1e308 dropped, never the surface (limits: our design)."""
+    ds = build_profile([4067.0, 1e308, 1000, 850, 700], [5.0, 5.0, np.inf, 2.0, -8.0],
+                       dewpoint=[1.0, 1.0, 1.0, 0.0, -12.0], lines=[1, 2, 3, 4, 5])
+    assert ds["pressure"].values[0] == 1000.0
+    assert np.isnan(ds["temperature"].values[0])
+    reasons = [(e.get("line"), e["reason"]) for e in ds.attrs["quality"]]
+    for line, text in ((1, "pressure 4067 hPa"), (2, "pressure 1e+308 hPa"), (3, "temperature inf degC")):
+        assert any(ln == line and text in r for ln, r in reasons), text
+
+
+def test_station_position_checked_and_longitude_normalised():
+    with pytest.raises(ProfileQualityError, match="latitude 91"):
+        build_profile(P, T, latitude=91.0, source="x.csv")
+    with pytest.raises(ProfileQualityError, match="longitude") as e:
+        build_profile(P, T, longitude=np.inf, source="x.csv")
+    assert e.value.file == "x.csv"
+    ds = build_profile(P, T, longitude=350.0)
+    assert ds.attrs["longitude"] == -10.0 and any("0..360" in q["reason"] for q in ds.attrs["quality"])
+
+
+def test_corrupted_surface_height_removes_only_itself():
+    """One corrupted height at the surface must not throw away the heights above it (longest rising run);
+    the refilled surface height agrees with MetPy's hypsometric thickness below 925 hPa."""
+    z = Z.copy()
+    z[0] = 9999.0
+    ds = build_profile(P, T, dewpoint=TD, height=z, lines=[1, 2, 3, 4, 5])
+    assert_allclose(ds["height"].values[1:], Z[1:])
+    assert_allclose(ds["height"].values[0], Z[1] - _thickness(1000, 925), atol=1.0)
+    assert any(e.get("line") == 1 and e["action"] == "removed" for e in ds.attrs["quality"])
+
+
+def test_height_that_still_rises_but_contradicts_the_thickness_is_removed():
+    """5400 m at 700 hPa stays below 5500 m at 500 hPa but is ~2.4 km off the hypsometric thickness (MetPy)."""
+    z = Z.copy()
+    z[3] = 5400.0
+    ds = build_profile(P, T, dewpoint=TD, height=z)
+    assert np.all(np.diff(ds["height"].values) > 0)
+    assert_allclose(ds["height"].values[3], Z[2] + _thickness(850, 700), rtol=0.02)
+    assert any("disagrees with the hypsometric thickness" in e["reason"] for e in ds.attrs["quality"])
+
+
+@pytest.mark.parametrize("factor, what", [(1 / 0.3048, "feet labelled m"), (0.001, "km labelled m")])
+def test_heights_in_the_wrong_unit_are_named(factor, what):
+    """Reported thickness a fixed multiple of the hypsometric one: the unit slip is named (1 ft = 0.3048 m)."""
+    with pytest.raises(ProfileQualityError, match=what):
+        build_profile(P, T, dewpoint=TD, height=Z * factor)
+
+
+def test_level_below_the_ground_dropped():
+    """Station elevation 1500 m: a level reported at 100 m, or without height at a higher pressure than the
+    level at the ground, is under the ground; each is recorded."""
+    ds = build_profile(P, T, dewpoint=TD, height=[100.0, np.nan, 1500.0, 2950.0, 5500.0], elevation=1500.0,
+                       lines=[1, 2, 3, 4, 5])
+    assert_allclose(ds["pressure"].values, [850, 700, 500])
+    dropped = {e["line"] for e in ds.attrs["quality"] if "below the ground" in e["reason"]}
+    assert dropped == {1, 2}
+
+
+@pytest.mark.parametrize("kwargs, pattern", [
+    ({"pressure": P * 100 * units.hPa}, "look like Pa"),
+    ({"pressure": P / 100 * units.hPa}, "hPa labelled Pa"),
+    ({"temperature": T * units.K}, "look like degC but are labelled K"),
+    ({"relative_humidity": np.array([0.9, 0.8, 0.95, 0.6, 0.4])}, "fraction"),
+])
+def test_unit_slips_are_typed_errors(kwargs, pattern):
+    args = {"pressure": P, "temperature": T} | kwargs
+    with pytest.raises(ProfileQualityError, match=pattern):
+        build_profile(args.pop("pressure"), args.pop("temperature"), **args)
+
+
+def test_quality_record_stays_bounded_for_long_faulty_input():
+    """Millions of faulty rows must not make millions of entries: beyond 1000, one summary entry."""
+    n = 5000
+    p = np.linspace(1000, 100, n)
+    ds = build_profile(p, np.full(n, -10.0), dewpoint=np.full(n, np.inf))
+    removed = [e for e in ds.attrs["quality"] if e.get("variable") == "dewpoint"]
+    assert len(removed) <= 1001 and sum(e.get("count", 1) for e in removed) == n

@@ -77,15 +77,24 @@ _CHUNK = 1 << 16  # values per array growth step (the arrays grow; nothing is he
 def _decode_head(head: bytes):
     """Text of the start of a file in the encoding the reader will use, or None for binary data."""
     if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
-        return head.decode("utf-16", errors="ignore")
-    if b"\x00" in head:
+        text = head.decode("utf-16", errors="ignore")
+    elif _binary(head):
         return None
-    try:
-        return head.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        if exc.start >= len(head) - 3:  # a multi-byte character cut by the end of the head
-            return head[: exc.start].decode("utf-8-sig")
-        return head.decode("latin-1")
+    else:
+        head = head.replace(b"\x00", b"")
+        try:
+            text = head.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            if exc.start >= len(head) - 3:  # a multi-byte character cut by the end of the head
+                text = head[: exc.start].decode("utf-8-sig")
+            else:
+                text = head.decode("latin-1")
+    return text.replace("\r\n", "\n").replace("\r", "\n")
+
+
+def _binary(head: bytes) -> bool:
+    """More than a stray NUL byte or two: binary data, not text with a control character in it."""
+    return head.count(b"\x00") > 2 + len(head) // 200
 
 
 def _split(line: str, delim):
@@ -151,7 +160,7 @@ class _Text:
             self.encoding = "utf-16"
         else:
             self.encoding = "utf-8-sig"
-            if b"\x00" in raw_head:
+            if _binary(raw_head):
                 raise SoundingFormatError("binary file, not a delimited text table", file=path, line=1)
 
     def lines(self):
@@ -172,6 +181,8 @@ class _Text:
                     if restarted and no <= self.skip:
                         continue
                     line = line.rstrip("\n")
+                    if no == 1:
+                        line = line.lstrip("\ufeff")  # a byte-order mark is no content
                     if _CONTROL.search(line):
                         line = self._clean(line, no)
                     yield no, line
