@@ -33,3 +33,17 @@ def test_bad_file_is_named():
     with pytest.raises(SoundingFormatError) as e:
         icing.read_soundings([SAMPLES / "S1_00101_2026011500.csv", SAMPLES / "demo_route.csv"])
     assert "demo_route.csv" in str(e.value)
+
+
+def test_units_option_reaches_only_the_readers_that_take_it(tmp_path):
+    """units= is given to the table reader for a header without units; the TEMP reader does not get it."""
+    text = (SAMPLES / "S1_00101_2026011500.csv").read_text()
+    lines = text.splitlines()
+    k = next(i for i, ln in enumerate(lines) if ln.startswith("pressure"))
+    lines[k] = "pressure,height,temperature,dewpoint,wind_direction,wind_speed"
+    (tmp_path / "bare.csv").write_text("\n".join(lines) + "\n")
+    units = {"pressure": "hPa", "height": "m", "temperature": "degC", "dewpoint": "degC", "wind_direction": "deg",
+             "wind_speed": "kt"}
+    ds = icing.read_soundings([tmp_path / "bare.csv", SAMPLES / "S1_00101_2026011500.csv",
+                               SAMPLES / "formats" / "scenario_temp.txt"], units=units, reference_time="2026-01-15")
+    np.testing.assert_array_equal(ds["temperature"].values[0], ds["temperature"].values[1])

@@ -145,3 +145,48 @@ def test_demo_igra_matches_demo_csv():
             a, b = ds[name].values, ref[name].values
             assert np.array_equal(np.isnan(a), np.isnan(b)), name
             assert np.nanmax(np.abs(a - b)) <= tol, name
+
+
+# --- derived-parameter files (issue 15) ----------------------------------------------------------------------
+
+import encoders  # noqa: E402
+
+DERIVED_PROFILE = {"pressure": [1012, 1000, 850, 700, 500], "height": [15, 80, 1456, np.nan, 5600],
+                   "calc_height": [15, 81, 1457, 3010, 5602], "temperature": [4.0, 3.6, -2.3, -9.5, -25.0],
+                   "relative_humidity": [90, 88, 95, 60, 30], "u": [3.0, 4.0, 5.0, 10.0, 20.0],
+                   "v": [0.0, -2.0, 1.0, 3.0, 5.0]}
+
+
+def test_derived_parameter_file_is_read(tmp_path):
+    """IGRA v2 derived-parameter layout (format description; positions from memory, cross-checked with an
+    independent reader's column table): PRESS Pa, REPGPH/CALCGPH m, TEMP tenths of K, REPRH tenths of %,
+    UWND/VWND tenths of m/s. The header has no position. Wind direction from components (meteorological
+    convention: u = 3, v = 0 blows from 270 degrees)."""
+    path = tmp_path / "ZZM00000101-drvd.txt"
+    path.write_text(encoders.encode_igra_derived([("2026-01-15T12:00", DERIVED_PROFILE)]))
+    assert reader_for(path).FORMAT == "igra"
+    (ds,) = igra.read(path)
+    assert ds.attrs["time"] == "2026-01-15T12:00:00Z" and ds.attrs["station"] == "ZZM00000101"
+    assert np.isnan(ds.attrs["latitude"]) and np.isnan(ds.attrs["longitude"])
+    assert_allclose(ds["pressure"].values, DERIVED_PROFILE["pressure"])
+    # reported height where given, IGRA's calculated one (noted) where not
+    assert_allclose(ds["height"].values, [15, 80, 1456, 3010, 5600])
+    assert any("CALCGPH" in e["reason"] for e in ds.attrs["quality"])
+    # tenths of K: 0.05 K rounding, and 273.15 K = 0 degC (SI definition)
+    assert_allclose(ds["temperature"].values, DERIVED_PROFILE["temperature"], atol=0.05 + 1e-9)
+    assert_allclose(ds["relative_humidity"].values, DERIVED_PROFILE["relative_humidity"], atol=0.05)
+    u, v = np.array(DERIVED_PROFILE["u"]), np.array(DERIVED_PROFILE["v"])
+    assert_allclose(ds["wind_speed"].values, np.hypot(u, v), atol=1e-9)
+    assert_allclose(ds["wind_direction"].values[0], 270.0)
+
+
+def test_derived_file_with_celsius_temperatures_is_refused_with_the_reason(tmp_path):
+    """TEMP in tenths of degC where the layout has tenths of K: the reason names the unit, not a header field."""
+    lines = encoders.encode_igra_derived([("2026-01-15T12:00", DERIVED_PROFILE)]).splitlines()
+    fixed = [lines[0]] + [ln[:24] + f"{int(round(t * 10)):7d}" + ln[31:]
+                          for ln, t in zip(lines[1:], DERIVED_PROFILE["temperature"], strict=True)]
+    path = tmp_path / "drvd.txt"
+    path.write_text("\n".join(fixed) + "\n")
+    with pytest.raises(SoundingFormatError, match="look like degC") as e:
+        igra.read(path)
+    assert "header field" not in str(e.value) and "drvd.txt" in str(e.value)

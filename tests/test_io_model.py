@@ -172,3 +172,22 @@ def test_errors_name_the_file_and_reason(tmp_path):
         fake.write_bytes(b"GRIB" + b"\x00" * 100)
         with pytest.raises(SoundingFormatError, match="cfgrib"):
             read_model(fake)
+
+
+def test_temperature_without_levels_or_one_level_is_refused():
+    """A model field that is not a profile: temperature lacking the level dimension, or a single level."""
+    src = _cf()
+    flat = src.assign(ta=src["ta"].isel(plev=0, drop=True))
+    with pytest.raises(SoundingFormatError, match="no pressure-level dimension") as e:
+        normalise_model(flat, source="flat.nc")
+    assert e.value.file == "flat.nc"
+    with pytest.raises(SoundingFormatError, match="only 1 pressure level") as e:
+        normalise_model(src.isel(plev=[2]), source="one.nc")
+    assert e.value.file == "one.nc"
+
+
+def test_pressure_levels_in_the_wrong_unit_are_named():
+    src = _cf()
+    src["plev"].attrs["units"] = "hPa"  # values are Pa
+    with pytest.raises(SoundingFormatError, match="Pa labelled hPa"):
+        normalise_model(src, source="x.nc")
