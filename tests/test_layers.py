@@ -154,9 +154,26 @@ def test_bourgouin_refreezing_thresholds(where, expected):
     ts = _solve(lambda v: _reference_area(*_warm_nose(v, tw), 1000, 900), target, -40.0, -0.01)
     code, out = _ptype(_warm_nose(ts, tw))
     assert code == expected
-    # Melted precipitation falls into the cold layer: rain-size supercooled drops there in every case.
-    assert (out["large_drop"][P_HPA > 900] == 2).all()
+    # Melted precipitation falls into the cold layer as supercooled drops: through all of it where Bourgouin's
+    # outcome is freezing rain or the mix; where it is ice pellets the drops have refrozen before the ground.
+    cold = P_HPA > 900
+    assert out["large_drop"][P_HPA == 900 + 25][0] == 2  # the top of the cold layer: still liquid
+    if expected == 4:
+        assert out["large_drop"][P_HPA == 1000][0] == 0
+    else:
+        assert (out["large_drop"][cold] == 2).all()
     assert bool(out["warm_layer_aloft"][P_HPA == 850][0])
+
+
+def test_shallow_warm_nose_over_deep_cold_layer_gives_pellets_not_freezing_rain_at_the_ground():
+    """A shallow warm nose (+1 degC, about 200 m) over a deep cold layer (about -5 degC over 1.9 km) under a
+    precipitating deck: Bourgouin (2000) gives ice pellets (NA far above 66 + 0.66 PA), so supercooled rain
+    may be met only in the top of the cold layer, never near the ground (the case of the calibration issue)."""
+    nodes = ([1000, 825, 800, 785, 700, 600, 500, 450], [-5.0, -5.0, 1.0, 0.0, -8.0, -15.0, -23.0, -27.0])
+    code, out = _ptype(nodes)
+    assert code == 4
+    assert not (out["large_drop"][P_HPA >= 900] == 2).any()
+
 
 
 def _warm_surface(ts):

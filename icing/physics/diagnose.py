@@ -125,7 +125,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         Output rows: in cloud, supercooled, warm layer aloft.
     out_i : ndarray of int8 (2, n)
         Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective).
-    scratch_f, scratch_b, scratch_i : ndarray (10, n), (6, n), (6, n)
+    scratch_f, scratch_b, scratch_i : ndarray (11, n), (6, n), (6, n)
         Work space (float, bool, int64).
 
     Returns
@@ -153,8 +153,8 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     large, kind = out_i[0], out_i[1]
     lnt, rh_c, z_agl, min_rh, zb, parcel, lwc_ad, area = (scratch_f[0], scratch_f[1], scratch_f[2], scratch_f[3],
                                                           scratch_f[4], scratch_f[5], scratch_f[6], scratch_f[7])
-    layer_area, above_base = scratch_f[8], scratch_f[9]
-    model, drizzle_src, layer_rain = scratch_b[2], scratch_b[3], scratch_b[4]
+    layer_area, above_base, layer_limit = scratch_f[8], scratch_f[9], scratch_f[10]
+    model, drizzle_src = scratch_b[2], scratch_b[3]
     starts, ends = scratch_i[2], scratch_i[3]
     layer_start, layer_of = scratch_i[4], scratch_i[5]
     # humidity (Murphy and Koop 2005) and the height above the lowest level
@@ -234,7 +234,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     rain = scratch_b[5]
     ptype = precipitation.precipitation_type_in_column(lnp, lnt, t, src_level, src_phase, humidity_complete,
                                                        melt_aloft, rain, area, layer_start, layer_of, layer_area,
-                                                       layer_rain)
+                                                       layer_limit)
     if any_drizzle:
         precipitation.drizzle_below_in_column(t, drizzle_src, in_cloud, drizzle_src)
     for k in range(n):
@@ -248,7 +248,7 @@ def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_r
     """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
     when unused); outputs (5, P, n), (3, P, n), (2, P, n), (P,), (P,)."""
     npro, n = t.shape
-    scratch_f = np.empty((10, n))
+    scratch_f = np.empty((11, n))
     scratch_b = np.empty((6, n), np.bool_)
     scratch_i = np.empty((6, n), np.int64)
     lnp = np.empty(n)

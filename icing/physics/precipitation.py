@@ -113,7 +113,7 @@ def precipitation_source(z, zb, t, starts, ends, nr, min_cloud_base, drizzle_top
 
 @jitable
 def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidity_complete, melting_area_aloft,
-                                 liquid_into_cold, area, layer_start, layer_of, layer_area, layer_rain):
+                                 liquid_into_cold, area, layer_start, layer_of, layer_area, layer_limit):
     """Precipitation type at the lowest level of a column by the Bourgouin (2000) energy-area method, top down.
 
     Parameters
@@ -128,9 +128,13 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidi
     melting_area_aloft : float
         Area (J/kg) of a warm layer aloft that melts snow (2 J/kg, Bourgouin 2000).
     liquid_into_cold : ndarray of bool (n,)
-        Output: levels of sub-freezing layers that melted or liquid precipitation falls into (freezing rain).
-    area, layer_start, layer_of, layer_area, layer_rain : ndarray (n,)
-        Work space (float, int, int, float, bool).
+        Output: levels of sub-freezing layers through which drops still fall liquid (supercooled rain): all of
+        such a layer under liquid precipitation; under melted snow, the layer from its top down to where its
+        area counted from the top reaches 66 + 0.66 PA, Bourgouin's threshold beyond which every drop has
+        refrozen to an ice pellet (our reading of his areas as a depth; the ground level stays liquid only
+        where his outcome is freezing rain or the mix).
+    area, layer_start, layer_of, layer_area, layer_limit : ndarray (n,)
+        Work space (float, int, int, float, float).
 
     Returns
     -------
@@ -182,6 +186,8 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidi
     source_rank = nl - 1 - layer_of[source_level] if layer_of[source_level] >= 0 else -1
     phase = NONE
     pa = 0.0
+    for j in range(nl):
+        layer_limit[j] = 0.0  # area (J/kg) from a cold layer's top within which drops are still liquid
     for rank in range(nl):  # top down
         j = nl - 1 - rank
         a = layer_area[j]
@@ -192,7 +198,6 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidi
         has_ice = phase == SNOW or phase == PELLETS or phase == FREEZING_RAIN_PELLETS
         liquid = phase == RAIN or phase == FREEZING_RAIN
         drizzle = phase == DRIZZLE or phase == FREEZING_DRIZZLE
-        layer_rain[j] = False
         if warm and not surface:
             if has_ice and a >= melting_area_aloft:
                 pa = a
@@ -202,11 +207,12 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidi
             elif drizzle:
                 phase = DRIZZLE
         if not warm:
-            melted = phase == MELTED
-            layer_rain[j] = melted or liquid or phase == FREEZING_RAIN_PELLETS
-            if melted:
+            if phase == MELTED:  # drops refreeze on their way down: liquid until the area reaches 66 + 0.66 PA
+                layer_limit[j] = 66.0 + 0.66 * pa
                 phase = PELLETS if a > 66.0 + 0.66 * pa else (FREEZING_RAIN if a < 46.0 + 0.66 * pa
                                                                else FREEZING_RAIN_PELLETS)
+            elif liquid or phase == FREEZING_RAIN_PELLETS:  # liquid stays liquid (supercooled) through the layer
+                layer_limit[j] = np.inf
             if liquid:
                 phase = FREEZING_RAIN
             elif drizzle:
@@ -222,8 +228,16 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, humidi
                 phase = RAIN
             elif drizzle:
                 phase = DRIZZLE
-    for k in range(n):
-        liquid_into_cold[k] = layer_of[k] >= 0 and t[k] <= thermo.T0 and layer_rain[layer_of[k]]
+    current = -2
+    counted = 0.0
+    for k in range(n - 1, -1, -1):  # top down: the area of each cold layer counted from its top
+        j = layer_of[k]
+        if j != current:
+            current = j
+            counted = 0.0
+        if j >= 0 and t[k] <= thermo.T0:
+            counted += area[k]  # (a level carries the area of the interval above it)
+            liquid_into_cold[k] = counted < layer_limit[j]
     if phase == NONE and not humidity_complete:
         return -1
     return phase
@@ -267,10 +281,10 @@ def _type_rows(lnp, lnt, t, level, phase, complete, melting, ptype, rain):
     n = t.shape[1]
     area, layer_area = np.empty(n), np.empty(n)
     layer_start, layer_of = np.empty(n, np.int64), np.empty(n, np.int64)
-    layer_rain = np.empty(n, np.bool_)
+    layer_limit = np.empty(n)
     for i in range(t.shape[0]):
         ptype[i] = precipitation_type_in_column(lnp[i], lnt[i], t[i], level[i], phase[i], complete[i], melting,
-                                                rain[i], area, layer_start, layer_of, layer_area, layer_rain)
+                                                rain[i], area, layer_start, layer_of, layer_area, layer_limit)
 
 
 @functools.lru_cache(maxsize=1)
