@@ -6,9 +6,10 @@ numpy arrays where the function is pure arithmetic, or on one column). Marked wi
 function is compiled into any kernel made with :func:`jit` that calls it. numba caches compiled kernels on
 disk beside their source, so a machine compiles each kernel once.
 
-numba checks only the kernel's own source file when it reuses its cache: after changing a marked function in
-another module, delete the ``__pycache__/*.nbi`` files of the package (or set ``NUMBA_CACHE_DIR`` to an
-empty folder) before measuring.
+numba checks only the kernel's own source file when it reuses its cache, not the modules whose functions are
+compiled into it. So before the first kernel of a process is made, :func:`jit` compares a digest of the
+package's source with the one stored beside numba's cache and, where they differ (a physics function was
+edited, or a new version installed), deletes the package's cached kernels: they are compiled afresh once.
 """
 
 from __future__ import annotations
@@ -16,6 +17,31 @@ from __future__ import annotations
 __all__ = ["jitable", "jit"]
 
 _PENDING = []  # functions marked jitable and not yet registered with numba (numba is imported only to compile)
+_CHECKED = []  # whether this process has checked the cache against the source
+
+
+def _drop_stale_cache():
+    """Delete numba's cached kernels of the package when its source has changed since they were compiled."""
+    import hashlib
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]  # the icing package
+    digest = hashlib.sha256()
+    for f in sorted(root.rglob("*.py")):
+        digest.update(f.relative_to(root).as_posix().encode() + b"\0" + f.read_bytes())
+    stamp = root / "physics" / "__pycache__" / "kernels.sha256"
+    try:
+        if stamp.read_text() == digest.hexdigest():
+            return
+    except OSError:
+        pass
+    try:
+        for cached in (*root.rglob("__pycache__/*.nbi"), *root.rglob("__pycache__/*.nbc")):
+            cached.unlink(missing_ok=True)
+        stamp.parent.mkdir(exist_ok=True)
+        stamp.write_text(digest.hexdigest())
+    except OSError:  # a read-only installation: numba then compiles in memory (or uses NUMBA_CACHE_DIR)
+        pass
 
 
 def jitable(func):
@@ -33,6 +59,9 @@ def jit(func=None, signature=None, **options):
     import numba
     from numba.extending import register_jitable
 
+    if not _CHECKED:
+        _drop_stale_cache()
+        _CHECKED.append(True)
     while _PENDING:
         register_jitable(_PENDING.pop())
     opts = {"nogil": True, "cache": True, "error_model": "numpy", **options}
