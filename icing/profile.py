@@ -40,6 +40,7 @@ T_RANGE = (-100.0, 60.0)  # degC, plausible tropospheric and lower-stratospheric
 P_RANGE = (1.0, 1100.0)  # hPa: the highest sea-level pressure on record is near 1084 hPa; 1 hPa is ~48 km
 Z_RANGE = (-500.0, 50000.0)  # m: the lowest dry land is ~430 m below sea level; balloons burst below 50 km
 ELEVATION_RANGE = (-500.0, 9000.0)  # m: station elevations (the highest ground is ~8850 m)
+GROUND_MARGIN_HPA = 90.0  # hPa: without heights, a level this far above the standard ground pressure is under it
 GROUND_TOLERANCE = 10.0  # m: a level this far below the station elevation is still the ground (rounding)
 _BLOCK = 1 << 18  # levels per block where whole-profile temporaries would be large
 MAX_ENTRIES = 1000  # filled heights beyond this many are one quality entry with a count
@@ -222,6 +223,9 @@ def _build(pressure, temperature, *, height, dewpoint, relative_humidity, wind_s
         check_temperature_unit(data["dewpoint"], "degC", name="dewpoint")
     check_pressure_unit(p, f"{pressure.units:~}" if isinstance(pressure, ureg.Quantity) else "hPa")
     rh_fin = data["relative_humidity"][np.isfinite(data["relative_humidity"])]
+    if rh_fin.size >= 2 and np.median(rh_fin) > 2.0 * RH_MAX:
+        raise ProfileQualityError(f"relative humidity values {rh_fin.min():g}..{rh_fin.max():g} % are mostly above "
+                                  "200 %: they look like percent labelled as a fraction (unit 1)")
     if rh_fin.size >= 3 and 0.0 < rh_fin.max() <= 1.0:
         raise ProfileQualityError(f"relative humidity values {rh_fin.min():g}..{rh_fin.max():g} % look like a "
                                   "fraction (0-1) labelled percent; label the column with unit 1 (fraction)")
@@ -500,14 +504,21 @@ def _drop_below_ground(prof, elevation):
         p_ground = p[j] * np.exp(thermo.G0 * max(z[j] - float(elevation), 0.0) / (thermo.RD * tk))
         # a pressure more than ~15 m of air above the ground pressure is below the ground
         bad |= ~np.isfinite(z) & (p > p_ground * 1.002)
+        how = "the pressure at the station elevation"
+    else:
+        # No reported height to go by: the standard-atmosphere pressure of the elevation, with a margin wider
+        # than the weather moves surface pressure (sea-level records stay within 870..1084 hPa).
+        p_ground = float(thermo.standard_atmosphere_pressure(float(elevation))) / 100.0 + GROUND_MARGIN_HPA
+        bad |= p > p_ground
+        how = (f"the standard-atmosphere pressure at the station elevation plus {GROUND_MARGIN_HPA:.0f} hPa "
+               "(no level reports a height)")
     if not bad.any():
         return
 
     def why(j):
         if np.isfinite(z[j]):
             return f"below the ground: height {z[j]:.0f} m under the station elevation {elevation:.0f} m"
-        return (f"below the ground: pressure {p[j]:g} hPa above {p_ground:.1f} hPa, the pressure at the "
-                f"station elevation {elevation:.0f} m")
+        return (f"below the ground: pressure {p[j]:g} hPa above {p_ground:.1f} hPa, {how} {elevation:.0f} m")
 
     prof.drop(bad, why)
 

@@ -205,3 +205,16 @@ def test_quality_record_stays_bounded_for_long_faulty_input():
     ds = build_profile(p, np.full(n, -10.0), dewpoint=np.full(n, np.inf))
     removed = [e for e in ds.attrs["quality"] if e.get("variable") == "dewpoint"]
     assert len(removed) <= 1001 and sum(e.get("count", 1) for e in removed) == n
+
+
+def test_below_the_ground_without_any_height():
+    """No height reported: a level at a pressure far above the US Standard Atmosphere 1976 pressure of the
+    station elevation (845.6 hPa at 1500 m) plus a 90 hPa margin (our design) is under the ground."""
+    ds = build_profile(P, T, dewpoint=TD, elevation=1500.0, lines=[1, 2, 3, 4, 5])
+    assert ds["pressure"].values[0] == 925.0
+    assert [e["line"] for e in ds.attrs["quality"] if "below the ground" in e["reason"]] == [1]
+
+
+def test_percent_labelled_as_a_fraction():
+    with pytest.raises(ProfileQualityError, match="percent labelled as a fraction"):
+        build_profile(P, T, relative_humidity=np.array([90.0, 80, 95, 60, 40]) * units.dimensionless)
