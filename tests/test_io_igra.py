@@ -190,3 +190,15 @@ def test_derived_file_with_celsius_temperatures_is_refused_with_the_reason(tmp_p
     with pytest.raises(SoundingFormatError, match="look like degC") as e:
         igra.read(path)
     assert "header field" not in str(e.value) and "drvd.txt" in str(e.value)
+
+
+def test_bom_and_crlf(tmp_path):
+    """An IGRA file saved with a UTF-8 byte-order mark and CRLF line ends reads as the plain file."""
+    path = _write(tmp_path, SOUNDING_1 + SOUNDING_2)
+    plain = igra.read(path)
+    path.write_bytes(b"\xef\xbb\xbf" + path.read_bytes().replace(b"\n", b"\r\n"))
+    assert reader_for(path).FORMAT == "igra"
+    again = igra.read(path)
+    for a, b in zip(plain, again, strict=True):
+        np.testing.assert_array_equal(a["temperature"].values, b["temperature"].values)
+        assert a.attrs["quality"] == b.attrs["quality"]

@@ -72,7 +72,7 @@ _REMOVED_CODES = (-8888, -88888)
 def sniff(head: bytes, path) -> bool:
     """True if the file starts with an IGRA v2 header record."""
     try:
-        first = head.decode("ascii").lstrip("\ufeff").splitlines()[0]
+        first = head.removeprefix(b"\xef\xbb\xbf").decode("ascii").splitlines()[0]
     except (UnicodeDecodeError, IndexError):
         return False
     return _HEADER.match(first) is not None
@@ -302,7 +302,7 @@ def _derived_profile(block, linenos, header, time, quality, source):
 def read(path, start=None, end=None, **options) -> list:
     """Every sounding of an IGRA v2 station file (or those with start <= time <= end) as profiles."""
     path = Path(path)
-    raw = file_bytes(path, "IGRA", options)
+    raw = file_bytes(path, "IGRA", options).removeprefix(b"\xef\xbb\xbf")  # a UTF-8 byte-order mark
     try:
         text = raw.decode("ascii")
     except UnicodeDecodeError as exc:

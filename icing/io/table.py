@@ -274,7 +274,11 @@ def read(path, units=None, **options):
         if s.startswith("#"):
             m = re.match(r"^#\s*([A-Za-z_ ]+?)\s*[:=]\s*(.*?)\s*$", s)
             if m:
-                meta[m.group(1).lower().replace(" ", "_")] = (m.group(2), no)
+                key = m.group(1).lower().replace(" ", "_")
+                if key in meta and meta[key][0] != m.group(2):
+                    raise SoundingFormatError(f"two values for {key}: {meta[key][0][:40]!r} (line {meta[key][1]}) "
+                                              f"and {m.group(2)[:40]!r}", file=path, line=no)
+                meta[key] = (m.group(2), no)
             continue
         header_no, header = no, s
         break
@@ -480,6 +484,8 @@ def _metadata(meta, path):
     for key, (val, no) in meta.items():
         if key in _META_FLOAT:
             name = _META_FLOAT[key]
+            if val.strip().lower() in _MISSING - {"m"}:
+                continue  # unknown, said so
             try:
                 v = float(val.translate(_MINUS)) if len(val) <= MAX_CELL else None
             except ValueError:
