@@ -191,3 +191,12 @@ def test_pressure_levels_in_the_wrong_unit_are_named():
     src["plev"].attrs["units"] = "hPa"  # values are Pa
     with pytest.raises(SoundingFormatError, match="Pa labelled hPa"):
         normalise_model(src, source="x.nc")
+
+
+def test_kelvin_labelled_celsius_is_named():
+    """Air temperatures above 150 labelled degC are kelvin (no air is warmer than ~60 degC)."""
+    src = _cf()
+    src["ta"].attrs["units"] = "degC"
+    with pytest.raises(SoundingFormatError, match="look like kelvin") as e:
+        normalise_model(src, source="k.nc")
+    assert e.value.file == "k.nc"

@@ -49,9 +49,9 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
-from icing.errors import SoundingFormatError
+from icing.errors import IcingError, ProfileQualityError, SoundingFormatError
 from icing.physics import thermo
-from icing.profile import P_RANGE, RH_MAX, T_RANGE, VARIABLES, Z_RANGE
+from icing.profile import P_RANGE, RH_MAX, T_RANGE, VARIABLES, Z_RANGE, check_temperature_unit
 from icing.units import ureg
 
 __all__ = ["read_model", "normalise_model", "sniff_grib", "FORMAT_NETCDF", "FORMAT_GRIB"]
@@ -138,9 +138,13 @@ def read_model(path, *, chunks=None, engine=None) -> xr.Dataset:
         out = normalise_model(ds, source=str(path), format=fmt)
         if chunks is None:
             out = out.load()  # read eagerly, as documented; the file is closed below
-    except Exception:
+    except (IcingError, MemoryError, KeyboardInterrupt):
         ds.close()
         raise
+    except Exception as exc:  # a layout the checks above did not foresee: still one typed line naming the file
+        ds.close()
+        raise SoundingFormatError(f"cannot read the model fields: {type(exc).__name__}: {str(exc)[:200]}",
+                                  file=path) from exc
     if chunks is None:
         ds.close()
     return out
@@ -468,6 +472,7 @@ def _fields(ds, names, p_hpa, quality, src):
             note({"level": None, "action": "changed", "reason": f"{vname}: {da.attrs['units']} converted to {unit}"})
         return conv
 
+    _check_temperature_label(ds[names["temperature"]], src)
     t = get("temperature", "degC")
     bad_t = (t < T_RANGE[0]) | (t > T_RANGE[1])
     t = t.where(~bad_t)
@@ -569,6 +574,19 @@ def _fields(ds, names, p_hpa, quality, src):
     out["latitude"].attrs.update(units="degrees_north", standard_name="latitude")
     out["longitude"].attrs.update(units="degrees_east", standard_name="longitude")
     return out
+
+
+def _check_temperature_label(da, src):
+    """Kelvin labelled degC (or degC labelled K) on a small sample (one time, one latitude row): typed error."""
+    if "units" not in da.attrs:
+        return  # the conversion names the missing unit
+    sample = da.isel({d: 0 for d in ("time", "latitude") if d in da.dims})
+    try:
+        check_temperature_unit(np.asarray(sample.values, dtype=float), str(_unit(da.attrs["units"],
+                                                                                 da.name, src)),
+                               name=f"temperature {da.name!r}")
+    except ProfileQualityError as exc:
+        raise SoundingFormatError(exc.reason, file=src) from None
 
 
 def _count(mask):
