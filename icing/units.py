@@ -37,6 +37,16 @@ _ALIASES = {
     "degrees_east": "degree",
     "g/m3": "g/m^3", "g m-3": "g/m^3", "gm-3": "g/m^3", "g/m^3": "g/m^3", "kg/m3": "kg/m^3", "kg m-3": "kg/m^3",
     "g/kg": "g/kg", "kg/kg": "kg/kg",
+    # more spellings seen in spreadsheet headers
+    "hectopascal": "hPa", "hectopascals": "hPa", "millibars": "hPa", "mbars": "hPa", "pascal": "Pa", "pascals": "Pa",
+    "m asl": "m", "m msl": "m", "masl": "m", "m_asl": "m", "m_msl": "m", "gpm msl": "m", "ft msl": "ft",
+    "ft asl": "ft", "ft_msl": "ft", "metres msl": "m", "meters msl": "m",
+    "degrees c": "degC", "degrees_c": "degC", "degree c": "degC", "degree_c": "degC", "degrees celsius": "degC",
+    "degree_celsius": "degC", "degrees_celsius": "degC", "ºc": "degC", "℃": "degC", "°k": "K", "kelvins": "K",
+    "degrees f": "degF", "degrees_f": "degF", "ºf": "degF", "℉": "degF",
+    "%rh": "percent", "% rh": "percent", "m/sec": "m/s", "m s^-1": "m/s", "meters/second": "m/s",
+    "metres/second": "m/s", "knts": "knot", "g/m³": "g/m^3", "deg true": "degree", "degrees true": "degree",
+    "deg_true": "degree",
 }
 
 

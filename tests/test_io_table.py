@@ -272,3 +272,14 @@ def test_metadata_out_of_range_names_its_line(tmp_path, line, text):
 def test_longitude_0_360_is_normalised(tmp_path):
     ds = icing.read_sounding(write(tmp_path, GOOD.replace("longitude: -30.25", "longitude: 329.75")))
     assert ds.attrs["longitude"] == -30.25
+
+
+def test_heights_above_ground_level(tmp_path):
+    """A height column in m AGL gets the station elevation added (heights are above mean sea level inside)."""
+    text = GOOD.replace("height_m", "height (m AGL)")
+    for z in (20, 1450, 2950, 5550):
+        text = text.replace(f",{z},", f",{z - 20},")
+    ds = icing.read_sounding(write(tmp_path, text))
+    assert_allclose(ds["height"].values, [20, 1450, 2950, 5550])
+    with pytest.raises(SoundingFormatError, match="station elevation"):
+        icing.read_sounding(write(tmp_path, text.replace("# elevation_m: 20\n", "")))

@@ -302,7 +302,7 @@ def read(path, units=None, **options):
             else:
                 first_row = (no, line)
             break
-    columns = {}
+    columns, above_ground = {}, set()
     for j, (cell, (var, unit_text)) in enumerate(zip(cells, parsed, strict=True)):
         if var is None:
             if cell:
@@ -321,6 +321,10 @@ def read(path, units=None, **options):
                                       f"{VARIABLES[var][0].replace('degree', 'deg')}, or pass units="
                                       f"{{'{var}': '{VARIABLES[var][0]}'}})", file=path, line=header_no,
                                       column=cell)
+        agl = re.match(r"^(.*?)[\s_]*(?:agl|above[\s_]+ground(?:[\s_]+level)?)$", str(unit_text).strip(), re.I)
+        if agl and var == "height":
+            above_ground.add(cell)
+            unit_text = agl.group(1) or "m"
         try:
             unit = parse_unit(str(unit_text))
         except UnitError as exc:
@@ -359,6 +363,13 @@ def read(path, units=None, **options):
         kwargs[var] = arr
         values[var] = None  # the converted copy replaces the read one (memory)
     md = _metadata(meta, path)
+    if above_ground and "height" in kwargs:
+        if not np.isfinite(md.get("elevation", np.nan)):
+            raise SoundingFormatError("heights above ground level need the station elevation (# elevation_m: ...)",
+                                      file=path, line=header_no, column=columns["height"][2])
+        kwargs["height"] += md["elevation"]
+        quality.append({"level": None, "action": "changed", "variable": "height", "line": header_no,
+                        "reason": f"heights above ground level: station elevation {md['elevation']:g} m added"})
     t = kwargs.pop("temperature")
     p = kwargs.pop("pressure")
     prof = build_profile(p, t, **kwargs, **md, source=str(path), format=FORMAT, lines=row_lines, quality=quality,
