@@ -105,3 +105,52 @@ def test_appendix_o_mvd_split_and_drop_sizes():
                                                                               "mvd>40", "unknown"]
     assert env.APPENDIX_O["freezing_drizzle"]["largest_drop_um"] == (100.0, 500.0)
     assert env.APPENDIX_O["freezing_rain"]["largest_drop_um"][0] == 500.0
+
+
+def test_words_within_the_continuous_maximum_read_at_most_moderate_for_certified_aircraft():
+    """The trade defines severe by effect: icing the ice protection cannot control (US Aeronautical Information
+    Manual, ch. 7); ice protection of aircraft certified for icing is designed for the Appendix C envelopes
+    (14 CFR 25.1419). At 0.3 g/m3, 15.5 um, -16 degC (inside the continuous maximum: AC 20-73A Table 6 gives
+    0.60 at -10 and 0.30 at -20 degC for 15 um) the regional-jet preset's rate on its reference body is severe,
+    yet the word is moderate for it, and stays severe for an aircraft not certified for icing."""
+    from icing.flight.aircraft import get_aircraft
+    from icing.physics.accretion import accretion_core, intensity_code
+
+    jet = get_aircraft("regional-jet")
+    rate = accretion_core(0.3e-3, 15.5e-6, jet.speed_ms("cruise"), 273.15 - 16.0, 65000.0,
+                          jet.body_diameter_m)["thickness_rate"]
+    code = intensity_code(rate)
+    assert int(code) == 4  # severe by the rate scale alone
+    assert env.appendix_c_status(0.3, 15.5, -16.0, 12000.0) == "within"
+    assert int(env.intensity_for_conditions(code, 0.3, 15.5, -16.0, 0, icing_certified=True)) == 3
+    assert int(env.intensity_for_conditions(code, 0.3, 15.5, -16.0, 0, icing_certified=False)) == 4
+
+
+@pytest.mark.parametrize(("lwc", "mvd", "large"), [(0.7, 15.0, 0), (0.2, 45.0, 0), (0.2, 20.0, 1), (0.2, 20.0, 2)])
+def test_beyond_the_envelope_or_with_large_drops_at_least_moderate(lwc, mvd, large):
+    """Above the continuous maximum (0.60 g/m3 at -10 degC, 15 um: AC 20-73A Table 6), with drops beyond its
+    40 um, or with supercooled large drops (14 CFR Part 25 Appendix O), ice protection designed for Appendix C
+    may not cope: a growing accretion reads at least moderate; none stays none and unknown stays unknown."""
+    for certified in (True, False):
+        assert int(env.intensity_for_conditions(1, lwc, mvd, -10.0, large, certified)) == 3
+        assert int(env.intensity_for_conditions(4, lwc, mvd, -10.0, large, certified)) == 4
+        assert int(env.intensity_for_conditions(0, lwc, mvd, -10.0, large, certified)) == 0
+        assert int(env.intensity_for_conditions(-1, lwc, mvd, -10.0, large, certified)) == -1
+
+
+@pytest.mark.parametrize("preset", ["light-piston", "turboprop", "regional-jet"])
+def test_words_never_fall_as_lwc_rises(preset):
+    """A word of the trade never falls as the liquid water rises (the AIM's words grow with the hazard), for
+    every preset from 0.01 to 1.5 g/m3 at -10 degC and 20 um: the rate grows with LWC (Makkonen 2000) and
+    leaving the envelope only lifts the cap and sets the floor."""
+    from icing.flight.aircraft import get_aircraft
+    from icing.physics.accretion import accretion_core, intensity_code
+
+    ac = get_aircraft(preset)
+    lwc = np.linspace(0.01, 1.5, 300)
+    rate = accretion_core(lwc * 1e-3, np.full(lwc.size, 20e-6), ac.speed_ms("cruise"), np.full(lwc.size, 263.15),
+                          np.full(lwc.size, 70000.0), ac.body_diameter_m)["thickness_rate"]
+    words = env.intensity_for_conditions(intensity_code(rate), lwc, 20.0, -10.0, 0, ac.icing_certified)
+    assert np.all(np.diff(words.astype(int)) >= 0)
+    grows = (rate > 0) & (lwc > 0.5)  # above the 0.43 g/m3 continuous maximum at -10 degC, 20 um (interpolated)
+    assert np.all(words[grows] >= 3)  # (a fast jet's leading edge may stay above 0 degC: no ice, no word)

@@ -11,6 +11,7 @@ from its approved flight manual in a TOML file:
     name = "our-survey-aircraft"
     tas_cruise_kt = 210
     body_diameter_m = 0.07
+    icing_certified = true      # ice protection approved for flight in icing (Part 25 Appendix C)
 """
 
 from __future__ import annotations
@@ -51,6 +52,10 @@ class Aircraft:
         Vertical speeds in feet per minute, positive numbers (a Quantity is converted).
     body_diameter_m : float
         Diameter of the reference cylinder for the accretion model, m (a Quantity is converted).
+    icing_certified : bool
+        Whether the aircraft is certified for flight in icing conditions (its ice protection designed for the
+        14 CFR Part 25 Appendix C envelopes, 25.1419): intensity words within the continuous maximum then go
+        no higher than moderate (see :func:`icing.physics.envelopes.intensity_for_conditions`).
 
     Raises
     ------
@@ -68,6 +73,7 @@ class Aircraft:
     climb_rate_fpm: float
     descent_rate_fpm: float
     body_diameter_m: float
+    icing_certified: bool = False
 
     def __post_init__(self):
         for field in ("name", "description"):
@@ -75,6 +81,8 @@ class Aircraft:
                 raise ConfigError(f"{field}: must be text, got {getattr(self, field)!r}")
         if not self.name.strip():
             raise ConfigError("name: must not be empty")
+        if not isinstance(self.icing_certified, bool):
+            raise ConfigError(f"icing_certified: must be true or false, got {self.icing_certified!r}")
         for field, (unit, lo, hi) in _LIMITS.items():
             value = getattr(self, field)
             if isinstance(value, bool):
@@ -108,11 +116,11 @@ PRESETS = {
     "turboprop": Aircraft(
         name="turboprop", description="generic twin turboprop (representative numbers)",
         tas_climb_kt=180.0, tas_cruise_kt=270.0, tas_descent_kt=250.0, climb_rate_fpm=1500.0,
-        descent_rate_fpm=1500.0, body_diameter_m=0.08),
+        descent_rate_fpm=1500.0, body_diameter_m=0.08, icing_certified=True),
     "regional-jet": Aircraft(
         name="regional-jet", description="generic twin-jet regional airliner (representative numbers)",
         tas_climb_kt=300.0, tas_cruise_kt=440.0, tas_descent_kt=320.0, climb_rate_fpm=2500.0,
-        descent_rate_fpm=2000.0, body_diameter_m=0.10),
+        descent_rate_fpm=2000.0, body_diameter_m=0.10, icing_certified=True),
 }
 
 _FIELDS = tuple(f.name for f in dataclasses.fields(Aircraft))
@@ -149,7 +157,7 @@ def _read_toml(path: Path, seen=()) -> Aircraft:
     if unknown:
         raise ConfigError(f"key {unknown[0]!r}: unknown; the keys are base, {', '.join(_FIELDS)}", file=path)
     if base_name is None:
-        missing = [f for f in _FIELDS if f not in data]
+        missing = [f for f in _FIELDS if f not in data and f != "icing_certified"]  # (that one defaults to false)
         if missing:
             raise ConfigError(f"key {missing[0]!r}: missing (or give base = a preset to inherit from)", file=path)
         base = None

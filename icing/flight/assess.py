@@ -278,7 +278,8 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         r2 = _accrete(a2, tas, ac.body_diameter_m)[0]
         acc2 = np.where((a2["coverage"] >= FULL) & (alt2 >= MIN_ALTERNATIVE_FT), r2 * dur / 3600.0, np.nan)
         alt_acc[off] = acc2
-    segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice)
+    segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice,
+                                             ac.icing_certified)
     out = []
     bounds = np.concatenate([[0], np.cumsum(lengths)])
     seg_bounds = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in rts])])
@@ -314,9 +315,9 @@ def _reduce(ufunc, values, starts):
     return ufunc.reduceat(values, starts) if values.size else values
 
 
-def _segment_tables(routes, smp, used, source, alt_acc, ice):
+def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=False):
     """Aggregate samples into segments for all routes at once (reduceat over contiguous segment runs)."""
-    from icing.physics.envelopes import appendix_c_status, appendix_o_status
+    from icing.physics.envelopes import appendix_c_status, appendix_o_status, intensity_for_conditions
 
     route_i = smp["route"].to_numpy()
     leg = smp["leg"].to_numpy()
@@ -335,11 +336,12 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice):
     temp = smp["temperature_c"].to_numpy()
     lwc = np.nan_to_num(smp["lwc_g_m3"].to_numpy())
     mvd = smp["mvd_um"].to_numpy()
-    codes = _intensity(rate).astype(int)
+    ld = np.nan_to_num(smp["large_drop"].to_numpy()).astype(int)
+    # the rate's word on the reference body, held to what the words mean for this aircraft (envelopes)
+    codes = intensity_for_conditions(_intensity(rate), lwc, mvd, temp, ld, icing_certified).astype(int)
     lvl = {"n/a": 0, "within": 1, "unknown": 2, "beyond": 3}  # the larger wins within a segment
     app_c = np.asarray(appendix_c_status(lwc, mvd, temp, alt))
     app_c = np.where(icing, np.vectorize(lvl.get)(app_c), 0) if app_c.size else app_c
-    ld = np.nan_to_num(smp["large_drop"].to_numpy()).astype(int)
     app_o = np.vectorize(lvl.get)(np.asarray(appendix_o_status(ld, alt))) if ld.size else ld
 
     def fin_max(v):

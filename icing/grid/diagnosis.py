@@ -180,7 +180,7 @@ def _compiled_potential():
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
-              cold_limit=233.15, airmass="continental", **thresholds):
+              icing_certified=False, cold_limit=233.15, airmass="continental", **thresholds):
     """The whole chain on a block of columns, plain SI numpy in and out (shape (..., level)).
 
     Parameters
@@ -190,6 +190,9 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     airspeed, body_diameter : float, optional
         True airspeed (m/s) and reference-body diameter (m) for the accretion potential; without them only
         the diagnostics and the freezing-level/supercooled summaries are computed.
+    icing_certified : bool
+        Whether the aircraft is certified for icing: its words are held to the Appendix C envelopes as on a
+        route (:func:`icing.physics.envelopes.intensity_for_conditions`).
 
     Returns
     -------
@@ -228,6 +231,11 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     max_rate = np.empty(shape[:-1])
     _compiled_potential()(rate.reshape(-1, n), valid.reshape(-1, n), code.reshape(-1, n), worst.reshape(-1),
                           max_rate.reshape(-1))
+    # the rate's words held to what they mean for this aircraft (as on a route: the same function)
+    from icing.physics.envelopes import intensity_for_conditions
+
+    code = intensity_for_conditions(code, d["lwc"], d["mvd"], t - thermo.T0, d["large_drop"], icing_certified)
+    worst = np.where(worst < 0, worst, code.max(axis=-1)).astype(np.int8)  # (words 0/unknown are never changed)
     rate *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
     rate *= 3600.0
     d.update({"potential_rate": rate, "potential_intensity": code, "ice_type": ice,
@@ -306,7 +314,8 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
 
     def core(*arrs):
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
-                        cold_limit=ck, airmass=airmass, **thresholds)
+                        icing_certified=bool(getattr(ac, "icing_certified", False)), cold_limit=ck, airmass=airmass,
+                        **thresholds)
         return tuple(out[k] for k in names) if len(names) > 1 else out[names[0]]
 
     core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []

@@ -82,10 +82,13 @@ MIXED_MIN_FREEZING_FRACTION = 0.5  # our convention (common practice, no publish
 INTENSITY_LABELS = np.array(["none", "trace", "light", "moderate", "severe"])
 INTENSITY_THRESHOLDS_IN_PER_H = (0.25, 1.0, 3.0)
 INTENSITY_NOTE = (
-    "Intensity words follow the accretion rate on a reference body (trace < 1/4 in/h, light 1/4-1, moderate "
-    "1-3, severe > 3 in/h; US Air Weather Service forecasters' guide, 1980, as quoted in later handbooks, the "
-    "primary text not seen). What is severe for one aircraft may be moderate for another: it also depends on "
-    "the aircraft, its speed and its ice protection. Advisory only."
+    "Intensity words start from the accretion rate on the aircraft's reference body (trace < 1/4 in/h, light "
+    "1/4-1, moderate 1-3, severe > 3 in/h; US Air Weather Service forecasters' guide, 1980, as quoted in later "
+    "handbooks, the primary text not seen) and are held to what the words mean: severe is icing the ice "
+    "protection cannot control (US Aeronautical Information Manual), and the ice protection of an aircraft "
+    "certified for icing is designed for the 14 CFR Part 25 Appendix C envelopes, so within the continuous "
+    "maximum such an aircraft reads at most moderate; above it, with drops over 40 um or with supercooled large "
+    "drops, any aircraft reads at least moderate. Advisory only."
 )
 
 

@@ -25,6 +25,7 @@ from icing.units import to_si as _to_si
 from icing.units import ureg
 
 __all__ = [
+    "intensity_for_conditions",
     "CONTINUOUS_MAX_MVD_UM", "CONTINUOUS_MAX_TEMPERATURE_C", "CONTINUOUS_MAX_LWC_G_M3", "APPENDIX_C",
     "APPENDIX_O", "appendix_c_continuous_max_lwc", "continuous_max_lwc_si", "appendix_c_status",
     "appendix_o_status", "appendix_o_subset",
@@ -175,3 +176,35 @@ def appendix_o_subset(mvd_um):
     with np.errstate(invalid="ignore"):
         out = np.where(d < APPENDIX_O["mvd_split_um"], "mvd<40", "mvd>40").astype(object)
     return np.where(np.isnan(d), "unknown", out).astype(str)
+
+
+def intensity_for_conditions(rate_code, lwc_g_m3, mvd_um, temperature_c, large_drop, icing_certified):
+    """Intensity codes (0 none .. 4 severe, -1 unknown) from the accretion rate's code, held to the trade's
+    definitions of the words.
+
+    The US Aeronautical Information Manual defines the words by their effect: severe is icing the aircraft's
+    ice protection cannot control. The ice protection of an aircraft certified for flight in icing is designed
+    for the 14 CFR Part 25 Appendix C envelopes (25.1419). So, for a certified aircraft (``icing_certified``),
+    conditions within the continuous maximum (LWC at or under it at the level's temperature and MVD, MVD up to
+    40 um) and without large drops read at most moderate (3), whatever the rate on the small reference body;
+    liquid above the continuous maximum, drops larger than 40 um or supercooled large drops (``large_drop`` 1
+    or 2, Appendix O) read at least moderate where ice grows, for any aircraft. Between, the rate's word
+    stands (trace < 1/4, light 1/4-1, moderate 1-3, severe > 3 in/h on the reference body: see
+    :data:`icing.physics.accretion.INTENSITY_NOTE`). The words never fall as LWC rises: the rate rises with
+    it, and leaving the envelope only lifts the cap and sets the floor. Temperatures colder than -30 degC
+    are held to the envelope's -30 degC (the figure ends there; the cold alone is no reason for a worse word).
+    """
+    code = np.asarray(rate_code).astype(np.int8)
+    w, d, tc = (np.asarray(x, dtype=float) for x in (lwc_g_m3, mvd_um, temperature_c))
+    cont = APPENDIX_C["continuous_max"]
+    with np.errstate(invalid="ignore"):
+        limit = continuous_max_lwc_si(np.clip(d, cont["mvd_um"][0], cont["mvd_um"][1]),
+                                      np.clip(tc, cont["temperature_c"][0], cont["temperature_c"][1]))
+        above = (w > limit) | (d > cont["mvd_um"][1])
+    large = np.nan_to_num(np.asarray(large_drop, dtype=float)) > 0
+    growing = code >= 1
+    out = np.where(growing & (above | large), np.maximum(code, 3), code)
+    if icing_certified:
+        within = ~above & ~large & np.isfinite(w) & np.isfinite(d) & np.isfinite(tc)
+        out = np.where(within, np.minimum(out, 3), out)
+    return out.astype(np.int8)
