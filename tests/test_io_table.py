@@ -283,3 +283,18 @@ def test_heights_above_ground_level(tmp_path):
     assert_allclose(ds["height"].values, [20, 1450, 2950, 5550])
     with pytest.raises(SoundingFormatError, match="station elevation"):
         icing.read_sounding(write(tmp_path, text.replace("# elevation_m: 20\n", "")))
+
+
+@pytest.mark.parametrize("line, elevation", [("# elevation_ft: 4921.26", 1500.0), ("# elevation: 1500 m", 1500.0),
+                                             ("# altitude: 1.5 km", 1500.0)])
+def test_station_elevation_in_other_units(tmp_path, line, elevation):
+    """1 ft = 0.3048 m exactly; the elevation decides which levels are below the ground."""
+    text = GOOD.replace("# elevation_m: 20", line).replace("850,1450,", "850,1500,")
+    ds = icing.read_sounding(write(tmp_path, text))
+    assert_allclose(ds.attrs["elevation"], elevation, atol=1e-3)
+    assert ds["pressure"].values[0] == 850.0
+
+
+def test_unknown_metadata_is_noted(tmp_path):
+    ds = icing.read_sounding(write(tmp_path, "# operator: nobody\n" + GOOD))
+    assert any("operator" in e["reason"] and e["line"] == 1 for e in ds.attrs["quality"])

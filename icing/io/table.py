@@ -362,7 +362,7 @@ def read(path, units=None, **options):
             raise SoundingFormatError(exc.reason, file=path, line=header_no, column=name) from None
         kwargs[var] = arr
         values[var] = None  # the converted copy replaces the read one (memory)
-    md = _metadata(meta, path)
+    md = _metadata(meta, path, quality)
     if above_ground and "height" in kwargs:
         if not np.isfinite(md.get("elevation", np.nan)):
             raise SoundingFormatError("heights above ground level need the station elevation (# elevation_m: ...)",
@@ -490,24 +490,51 @@ def _parse_block(block, cols, ncells, delim):
     return {var: frame[j].to_numpy(dtype=float) for var, j, _ in cols}
 
 
-def _metadata(meta, path):
-    md = {}
+_META_TIME = {"time", "valid_time", "datetime", "date_time", "launch_time", "date"}
+_META_STATION = {"station", "id", "station_id", "wmo_id", "site", "station_name_id"}
+_META_VALUE = re.compile(r"^\s*([-+\u2212]?[\d.]+(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+_META_KNOWN = {"name", "scenario", "station_name", "comment", "source", "note", "notes", "title"}
+_META_NUMBER = re.compile(r"^(latitude|lat|longitude|lon|elevation|elev|altitude|station_elevation|"
+                          r"station_altitude|height_of_station)(?:_(.+))?$")
+
+
+def _metadata(meta, path, quality=None):
+    """Station metadata from ``# key: value`` lines: position (degrees), elevation (m, or in the unit after an
+    underscore or in the value, as ``elevation_ft: 4900`` or ``elevation: 1500 m``), valid time, station."""
+    md, seen = {}, {}
     for key, (val, no) in meta.items():
-        if key in _META_FLOAT:
-            name = _META_FLOAT[key]
+        m = _META_NUMBER.match(key)
+        if m:
+            base = m.group(1)
+            name = "latitude" if base.startswith("lat") else "longitude" if base.startswith("lon") else "elevation"
+            if name in seen:
+                raise SoundingFormatError(f"{name} given twice (lines {seen[name]} and {no})", file=path, line=no)
+            seen[name] = no
             if val.strip().lower() in _MISSING - {"m"}:
                 continue  # unknown, said so
+            num = _META_VALUE.match(val) if len(val) <= MAX_CELL else None
+            unit_text = (num.group(2) if num and num.group(2) else None) or m.group(2)
             try:
-                v = float(val.translate(_MINUS)) if len(val) <= MAX_CELL else None
+                v = float(num.group(1).translate(_MINUS)) if num else None
             except ValueError:
                 v = None
             if v is None or not np.isfinite(v):
                 raise SoundingFormatError(f"{key} {val[:40]!r} is not a number", file=path, line=no)
+            if unit_text and name == "elevation":
+                unit = parse_unit_or_none(unit_text)
+                if unit is None or Quantity(1.0, unit).dimensionality != Quantity(1.0, "m").dimensionality:
+                    raise SoundingFormatError(f"{key}: unit {unit_text!r} is not a length", file=path, line=no)
+                v = float(Quantity(v, unit).to("m").magnitude)
+            elif unit_text and name != "elevation" and unit_text.lower() not in (
+                    "deg", "degree", "degrees", "°", "degrees_north", "degrees_east", "n", "e", "deg_n", "deg_e"):
+                raise SoundingFormatError(f"{key}: unit {unit_text!r} is not degrees", file=path, line=no)
             lo, hi = _META_RANGE[name]
             if not lo <= v <= hi:
                 raise SoundingFormatError(f"{key} {v:g} outside {lo:g}..{hi:g}", file=path, line=no)
             md[name] = v
-        elif key == "time":
+        elif key in _META_TIME:
+            if "time" in md:
+                raise SoundingFormatError(f"two times ({key} and another)", file=path, line=no)
             try:
                 ts = pd.Timestamp(val)
                 if ts is pd.NaT:
@@ -516,8 +543,11 @@ def _metadata(meta, path):
                 raise SoundingFormatError(f"time {val[:40]!r} is not a date and time ({exc})", file=path,
                                           line=no) from None
             md["time"] = val
-        elif key in ("station", "id"):
+        elif key in _META_STATION:
             md["station"] = val
+        elif quality is not None and key not in _META_KNOWN and not key.startswith("scenario"):
+            quality.append({"level": None, "action": "ignored", "line": no,
+                            "reason": f"metadata {key!r} is not used"})
     return md
 
 
