@@ -218,10 +218,11 @@ def _number(cell: str, delim, path, no, name, notes):
     if len(c) > MAX_CELL:  # checked before parsing: Python would read 300,000 digits as inf
         raise SoundingFormatError(f"a cell of {len(c):,} characters is not a number of this table (at most "
                                   f"{MAX_CELL})", file=path, line=no, column=name)
-    try:
-        return float(c)
-    except ValueError:
-        pass
+    if "_" not in c:  # Python would read 1_000 as 1000: no spreadsheet writes that
+        try:
+            return float(c)
+        except ValueError:
+            pass
     low = c.lower()
     if low in _MISSING:
         return np.nan
