@@ -202,3 +202,17 @@ def test_bom_and_crlf(tmp_path):
     for a, b in zip(plain, again, strict=True):
         np.testing.assert_array_equal(a["temperature"].values, b["temperature"].values)
         assert a.attrs["quality"] == b.attrs["quality"]
+
+
+def test_trailing_control_characters(tmp_path):
+    """A DOS end-of-file mark and a form feed after a record are no content: same profiles, with a note."""
+    path = _write(tmp_path, SOUNDING_1 + SOUNDING_2)
+    plain = igra.read(path)
+    lines = SOUNDING_1 + SOUNDING_2
+    lines[3] += "\x0c"
+    path.write_text("\n".join(lines) + "\n\x1a")
+    again = igra.read(path)
+    for a, b in zip(plain, again, strict=True):
+        np.testing.assert_array_equal(a["pressure"].values, b["pressure"].values)
+        np.testing.assert_array_equal(a["temperature"].values, b["temperature"].values)
+    assert any("control characters" in e["reason"] for e in again[0].attrs["quality"])

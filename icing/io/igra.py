@@ -66,6 +66,7 @@ _DERIVED_FIELDS = {"press": (1, 7), "repgph": (9, 15), "calcgph": (17, 23), "tem
                    "calcrh": (97, 103), "uwnd": (113, 119), "vwnd": (129, 135)}
 _DERIVED_WIDTH = 100  # a header or data record longer than this is of the derived-parameter layout
 _MISSING_CODES = (-9999, -99999)
+_TRAILING_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]+\s*$")
 _REMOVED_CODES = (-8888, -88888)
 
 
@@ -181,10 +182,17 @@ def decode_igra(text: str, source: str = "<string>", start=None, end=None) -> li
     start, end = _utc(start), _utc(end)
     # Records end at line feeds only (str.splitlines would also split at form feeds and other controls).
     lines = text.lstrip("\ufeff").replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    # Control characters trailing a record (a DOS end-of-file mark, a form feed) are no content.
+    trailing = [i for i, ln in enumerate(lines) if _TRAILING_CONTROL.search(ln)]
+    for i in trailing:
+        lines[i] = _TRAILING_CONTROL.sub("", lines[i])
     heads = [i for i, ln in enumerate(lines) if ln.startswith("#")]
     if not heads:
         raise SoundingFormatError("no IGRA v2 header record (a line starting with #)", file=source, line=1)
     loose = []
+    if trailing:
+        loose.append({"level": None, "action": "changed", "line": trailing[0] + 1,
+                      "reason": f"control characters removed from the end of {len(trailing)} line(s)"})
     if heads[0] > 0 and any(ln.strip() for ln in lines[: heads[0]]):
         loose.append({"level": None, "action": "skipped", "line": 1,
                       "reason": f"{heads[0]} line(s) before the first header record"})
