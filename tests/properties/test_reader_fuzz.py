@@ -72,6 +72,9 @@ def check_profile(ds):
         assert np.all(np.diff(z) > 0), "heights do not rise"
         _within(one["temperature"].values[:n], -100.0, 60.0, "temperature")
         _within(one["dewpoint"].values[:n], -150.0, 60.0, "dewpoint")
+        t, td = one["temperature"].values[:n], one["dewpoint"].values[:n]
+        both = np.isfinite(t) & np.isfinite(td)
+        assert np.all(td[both] <= t[both] + 1e-9), "dewpoint above temperature kept"
         _within(one["relative_humidity"].values[:n], 0.0, 100.0, "relative_humidity")
         for name, lo, hi in (("wind_speed", 0.0, 150.0), ("wind_direction", 0.0, 360.0)):
             if name in one:
