@@ -16,6 +16,7 @@ import re
 from pathlib import Path
 
 import numpy as np
+import pytest
 import xarray as xr
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -23,6 +24,9 @@ from hypothesis import strategies as st
 import icing
 from icing.errors import IcingError
 from icing.io.model import read_model
+
+# h5netcdf's File.__del__ complains (an unraisable AttributeError) about a file it failed to open: not ours.
+pytestmark = pytest.mark.filterwarnings("ignore::pytest.PytestUnraisableExceptionWarning")
 
 SAMPLES = Path(__file__).parents[2] / "sample_soundings"
 CSV = sorted(SAMPLES.glob("*.csv"))
