@@ -67,7 +67,7 @@ _MISSING = {"", "na", "nan", "n/a", "-9999", "-9999.0", "-9999.9", "-99999", "//
 _META_FLOAT = {"latitude": "latitude", "lat": "latitude", "longitude": "longitude", "lon": "longitude",
                "elevation_m": "elevation", "elevation": "elevation", "elev": "elevation"}
 _META_RANGE = {"latitude": (-90.0, 90.0), "longitude": (-180.0, 360.0), "elevation": ELEVATION_RANGE}
-_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\x85\u2028\u2029\ufeff]")
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\x85\u200b-\u200d\u2028\u2029\u2060\ufeff]")
 _MINUS = str.maketrans({"\u2212": "-", "\u2013": "-", "\u00a0": " ", "\u202f": " "})
 _DECIMAL_COMMA = re.compile(r"^[-+]?\d*,\d+(?:[eE][-+]?\d+)?$")
 MAX_CELL = 64  # characters: a longer number cell is corrupt (doubles carry 17 significant digits)
