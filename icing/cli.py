@@ -405,9 +405,17 @@ def _aircraft(args):
     from icing.flight.aircraft import PRESETS
 
     for name, ac in PRESETS.items():
-        print(f"{name:14s} cruise {ac.tas_cruise_kt:.0f} kt, climb {ac.tas_climb_kt:.0f} kt at "
-              f"{ac.climb_rate_fpm:.0f} ft/min, descent {ac.tas_descent_kt:.0f} kt at {ac.descent_rate_fpm:.0f} "
-              f"ft/min, reference body {ac.body_diameter_m * 1000:.0f} mm: {ac.description}")
+        def speed(ias, tas):
+            return f"{ias:.0f} kt indicated" if ias is not None else f"{tas:.0f} kt true"
+
+        print(f"{name:14s} {ac.description}\n{'':14s} climb {speed(ac.ias_climb_kt, ac.tas_climb_kt)} at "
+              f"{ac.climb_rate_fpm:.0f} ft/min, cruise {speed(ac.ias_cruise_kt, ac.tas_cruise_kt)}"
+              + (f" (at most Mach {ac.mach_limit:.2f})" if ac.mach_limit else "")
+              + f", descent {speed(ac.ias_descent_kt, ac.tas_descent_kt)} at {ac.descent_rate_fpm:.0f} ft/min; "
+              f"reference body {ac.body_diameter_m * 1000:.0f} mm; "
+              + ("certified for icing" if ac.icing_certified else "not certified for icing"))
+    print("Below 10,000 ft every aircraft flies at most 250 kt indicated (14 CFR 91.117(a)); true airspeeds follow "
+          "from the indicated ones in the standard atmosphere.")
     return 0
 
 

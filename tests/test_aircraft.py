@@ -4,6 +4,7 @@ classes, so no physics is checked against them; unit conversions are checked aga
 
 import dataclasses
 
+import numpy as np
 import pytest
 
 from icing.errors import ConfigError, UnitError
@@ -122,3 +123,33 @@ def test_toml_missing_file_and_loop(tmp_path):
 def test_aircraft_direct_construction_validates():
     with pytest.raises(ConfigError, match="body_diameter_m"):
         Aircraft("x", "y", 90, 120, 130, 600, 500, 5.0)
+
+
+@pytest.mark.parametrize("name", ["light-piston", "turboprop", "regional-jet"])
+def test_presets_fly_no_more_than_250_kt_indicated_below_10000_ft(name):
+    """14 CFR 91.117(a) (and ICAO Annex 11, Appendix 4): at most 250 kt indicated airspeed below 10,000 ft MSL.
+    Every preset's true airspeed in every phase stays at or under the true airspeed of 250 kt calibrated there
+    (standard atmosphere), and grows with altitude as its indicated airspeed stays put."""
+    from icing.physics import thermo
+
+    ac = get_aircraft(name)
+    alt = np.arange(0.0, 10000.0, 250.0)
+    p = thermo.pressure_from_pressure_altitude_ft(alt)
+    limit = thermo.true_airspeed_from_calibrated(250 * 1852 / 3600, p, thermo.standard_atmosphere_temperature(
+        thermo.standard_atmosphere_height(p)))
+    for phase in ("climb", "cruise", "descent"):
+        tas = ac.true_airspeed_ms(phase, alt)
+        assert np.all(tas <= limit * (1 + 1e-12)), phase
+        assert np.all(np.diff(tas) >= 0), phase
+
+
+def test_jet_cruise_held_to_its_mach_limit_and_slow_below_10000_ft():
+    """The regional jet flies 290 kt indicated and at most Mach 0.78: at FL350 that is 0.78 of the speed of
+    sound there (296.5 m/s at -54.3 degC, US Standard Atmosphere 1976), and at 8,000 ft no more than 250 kt
+    indicated (14 CFR 91.117(a)), about 280 kt true, not the 440 kt of its nominal cruise."""
+    from icing.physics import thermo
+
+    jet = get_aircraft("regional-jet")
+    t35 = thermo.standard_atmosphere_temperature(35000 * 0.3048)
+    np.testing.assert_allclose(jet.true_airspeed_ms("cruise", 35000.0), 0.78 * thermo.speed_of_sound(t35), rtol=1e-9)
+    assert 270 <= jet.true_airspeed_ms("descent", 8000.0) / (1852 / 3600) <= 285

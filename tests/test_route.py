@@ -1,7 +1,6 @@
 """Routes and trajectories: geodesic geometry checked against pyproj, file parsing, vertical profile."""
 
 import json
-from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
@@ -10,12 +9,13 @@ from numpy.testing import assert_allclose
 from pyproj import Geod
 
 from icing.errors import RouteFormatError
+from icing.flight.aircraft import Aircraft
 from icing.flight.route import Route, Waypoint, read_route, trajectory
 from icing.units import KT, NMI
 
 WGS84 = Geod(ellps="WGS84")
-PLANE = SimpleNamespace(tas_climb_kt=160.0, tas_cruise_kt=240.0, tas_descent_kt=220.0, climb_rate_fpm=1000.0,
-                        descent_rate_fpm=1500.0, body_diameter_m=0.05, name="test")
+PLANE = Aircraft(tas_climb_kt=160.0, tas_cruise_kt=240.0, tas_descent_kt=220.0, climb_rate_fpm=1000.0,
+                 descent_rate_fpm=1500.0, body_diameter_m=0.05, name="test", description="constant true airspeeds")
 
 
 def level_route(points, alt="FL120"):

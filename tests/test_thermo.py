@@ -127,3 +127,17 @@ def test_interp_outside_range_is_nan():
     """Interpolation never extrapolates: outside the profile the answer is unknown (NaN)."""
     out = thermo.interp_last_axis(np.array([-1.0, 0.5, 3.0]), np.array([0.0, 1.0, 2.0]), np.array([0.0, 1.0, 4.0]))
     assert np.isnan(out[0]) and np.isnan(out[2]) and out[1] == pytest.approx(0.5)
+
+
+def test_speed_of_sound_and_calibrated_to_true_airspeed():
+    """Speed of sound sqrt(gamma R T): 340.29 m/s at 288.15 K and 295.07 m/s at 216.65 K (US Standard
+    Atmosphere 1976 tables, from memory). Calibrated airspeed equals true airspeed at sea level in the standard
+    atmosphere (the definition of calibrated airspeed); 250 kt calibrated is about 288-289 kt true at 10,000 ft
+    (flight-computer tables, from memory)."""
+    assert_allclose(thermo.speed_of_sound(288.15), 340.29, atol=0.01)
+    assert_allclose(thermo.speed_of_sound(216.65), 295.07, atol=0.01)
+    kt = 1852.0 / 3600.0
+    assert_allclose(thermo.true_airspeed_from_calibrated(250 * kt, 101325.0, 288.15), 250 * kt, rtol=1e-12)
+    p10 = thermo.pressure_from_pressure_altitude_ft(10000.0)
+    t10 = thermo.standard_atmosphere_temperature(10000.0 * 0.3048)
+    assert_allclose(thermo.true_airspeed_from_calibrated(250 * kt, p10, t10) / kt, 288.5, atol=1.0)

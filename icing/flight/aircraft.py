@@ -10,6 +10,7 @@ from its approved flight manual in a TOML file:
     base = "turboprop"          # optional: start from a preset
     name = "our-survey-aircraft"
     tas_cruise_kt = 210
+    ias_cruise_kt = 170         # optional: indicated airspeeds by phase (ias_climb_kt, ias_descent_kt too)
     body_diameter_m = 0.07
     icing_certified = true      # ice protection approved for flight in icing (Part 25 Appendix C)
 """
@@ -25,7 +26,7 @@ from pathlib import Path
 
 from icing.errors import ConfigError, UnitError
 
-__all__ = ["Aircraft", "PRESETS", "get_aircraft"]
+__all__ = ["Aircraft", "PRESETS", "get_aircraft", "SPEED_LIMIT_KT", "SPEED_LIMIT_BELOW_FT"]
 
 # field -> (unit of a plain number, lowest, highest): sanity limits for subsonic piston, turboprop and jet
 # aircraft, so that a typo (knots typed as m/s, feet as metres) fails loudly.
@@ -36,7 +37,16 @@ _LIMITS = {
     "climb_rate_fpm": ("ft/min", 50.0, 10000.0),
     "descent_rate_fpm": ("ft/min", 50.0, 10000.0),
     "body_diameter_m": ("m", 0.002, 2.0),
+    "ias_climb_kt": ("knot", 30.0, 450.0),
+    "ias_cruise_kt": ("knot", 30.0, 450.0),
+    "ias_descent_kt": ("knot", 30.0, 450.0),
+    "mach_limit": ("dimensionless", 0.1, 0.95),
 }
+_OPTIONAL = ("ias_climb_kt", "ias_cruise_kt", "ias_descent_kt", "mach_limit")
+# 14 CFR 91.117(a) (and ICAO Annex 11, Appendix 4, for most classes of airspace): no more than 250 kt
+# indicated airspeed below 10,000 ft above mean sea level.
+SPEED_LIMIT_KT = 250.0
+SPEED_LIMIT_BELOW_FT = 10000.0
 
 
 @dataclass(frozen=True)
@@ -52,6 +62,12 @@ class Aircraft:
         Vertical speeds in feet per minute, positive numbers (a Quantity is converted).
     body_diameter_m : float
         Diameter of the reference cylinder for the accretion model, m (a Quantity is converted).
+    ias_climb_kt, ias_cruise_kt, ias_descent_kt : float, optional
+        Indicated (calibrated) airspeeds flown in each phase, knots. Where given, the true airspeed at each
+        altitude follows from them in the standard atmosphere (:meth:`true_airspeed_ms`); the ``tas_*`` values
+        then stand for the typical cruise and are used where no altitude is known (a model grid's potential).
+    mach_limit : float, optional
+        Highest Mach number flown (a jet's cruise Mach): the true airspeed is held to it at every altitude.
     icing_certified : bool
         Whether the aircraft is certified for flight in icing conditions (its ice protection designed for the
         14 CFR Part 25 Appendix C envelopes, 25.1419): intensity words within the continuous maximum then go
@@ -74,6 +90,10 @@ class Aircraft:
     descent_rate_fpm: float
     body_diameter_m: float
     icing_certified: bool = False
+    ias_climb_kt: float | None = None
+    ias_cruise_kt: float | None = None
+    ias_descent_kt: float | None = None
+    mach_limit: float | None = None
 
     def __post_init__(self):
         for field in ("name", "description"):
@@ -85,6 +105,8 @@ class Aircraft:
             raise ConfigError(f"icing_certified: must be true or false, got {self.icing_certified!r}")
         for field, (unit, lo, hi) in _LIMITS.items():
             value = getattr(self, field)
+            if value is None and field in _OPTIONAL:
+                continue
             if isinstance(value, bool):
                 raise ConfigError(f"{field}: must be a number, got {value!r}")
             if isinstance(value, int | float):
@@ -99,6 +121,35 @@ class Aircraft:
                 raise ConfigError(f"{field}: {number:g} is outside the plausible range {lo:g}-{hi:g} {unit}")
             object.__setattr__(self, field, number)
 
+    def true_airspeed_ms(self, phase: str, altitude_ft):
+        """True airspeed (m/s) flown in a phase ('climb', 'cruise' or 'descent') at altitudes (ft, taken as
+        pressure altitudes in the standard atmosphere).
+
+        The phase's indicated (calibrated) airspeed where the aircraft has one, else its ``tas_*`` value;
+        below 10,000 ft no more than 250 kt indicated (14 CFR 91.117(a); ICAO Annex 11, Appendix 4), and never
+        above ``mach_limit``. Calibrated to true by
+        :func:`icing.physics.thermo.true_airspeed_from_calibrated`.
+        """
+        import numpy as np
+
+        from icing.physics import thermo
+
+        alt = np.asarray(altitude_ft, dtype=float)
+        p = thermo.pressure_from_pressure_altitude_ft(alt)
+        temp = thermo.standard_atmosphere_temperature(thermo.standard_atmosphere_height(p))
+        kt = 1852.0 / 3600.0
+        ias = {"climb": self.ias_climb_kt, "cruise": self.ias_cruise_kt, "descent": self.ias_descent_kt}[phase] \
+            if phase in ("climb", "cruise", "descent") else self.speed_ms(phase)
+        limit = thermo.true_airspeed_from_calibrated(SPEED_LIMIT_KT * kt, p, temp)
+        if ias is not None:
+            tas = thermo.true_airspeed_from_calibrated(ias * kt, p, temp)
+        else:
+            tas = np.full(alt.shape, self.speed_ms(phase))
+        tas = np.where(alt < SPEED_LIMIT_BELOW_FT, np.minimum(tas, limit), tas)
+        if self.mach_limit is not None:
+            tas = np.minimum(tas, self.mach_limit * thermo.speed_of_sound(temp))
+        return tas if tas.ndim else float(tas)
+
     def speed_ms(self, phase: str) -> float:
         """True airspeed in m/s for the phase 'climb', 'cruise' or 'descent'."""
         try:
@@ -112,15 +163,18 @@ PRESETS = {
     "light-piston": Aircraft(
         name="light-piston", description="generic single-engine piston aeroplane (representative numbers)",
         tas_climb_kt=85.0, tas_cruise_kt=135.0, tas_descent_kt=140.0, climb_rate_fpm=700.0,
-        descent_rate_fpm=500.0, body_diameter_m=0.05),
+        descent_rate_fpm=500.0, body_diameter_m=0.05, ias_climb_kt=80.0, ias_cruise_kt=120.0,
+        ias_descent_kt=130.0),
     "turboprop": Aircraft(
         name="turboprop", description="generic twin turboprop (representative numbers)",
         tas_climb_kt=180.0, tas_cruise_kt=270.0, tas_descent_kt=250.0, climb_rate_fpm=1500.0,
-        descent_rate_fpm=1500.0, body_diameter_m=0.08, icing_certified=True),
+        descent_rate_fpm=1500.0, body_diameter_m=0.08, icing_certified=True, ias_climb_kt=170.0,
+        ias_cruise_kt=210.0, ias_descent_kt=240.0),
     "regional-jet": Aircraft(
         name="regional-jet", description="generic twin-jet regional airliner (representative numbers)",
         tas_climb_kt=300.0, tas_cruise_kt=440.0, tas_descent_kt=320.0, climb_rate_fpm=2500.0,
-        descent_rate_fpm=2000.0, body_diameter_m=0.10, icing_certified=True),
+        descent_rate_fpm=2000.0, body_diameter_m=0.10, icing_certified=True, ias_climb_kt=280.0,
+        ias_cruise_kt=290.0, ias_descent_kt=290.0, mach_limit=0.78),
 }
 
 _FIELDS = tuple(f.name for f in dataclasses.fields(Aircraft))
@@ -157,7 +211,7 @@ def _read_toml(path: Path, seen=()) -> Aircraft:
     if unknown:
         raise ConfigError(f"key {unknown[0]!r}: unknown; the keys are base, {', '.join(_FIELDS)}", file=path)
     if base_name is None:
-        missing = [f for f in _FIELDS if f not in data and f != "icing_certified"]  # (that one defaults to false)
+        missing = [f for f in _FIELDS if f not in data and f != "icing_certified" and f not in _OPTIONAL]
         if missing:
             raise ConfigError(f"key {missing[0]!r}: missing (or give base = a preset to inherit from)", file=path)
         base = None

@@ -472,22 +472,25 @@ def plan_geometry(route: Route, aircraft, transition_ft: float = DEFAULT_TRANSIT
         n_fine = max(int(np.ceil(dist / 500.0)), 2)
         s = np.linspace(0.0, dist, n_fine + 1)
         s_mid = 0.5 * (s[1:] + s[:-1])
-        tas_cruise = (a.speed_kt or aircraft.tas_cruise_kt) * KT
         dz = b.altitude_ft - a.altitude_ft
         phase = np.zeros(s_mid.size, dtype=np.int8)  # 0 cruise, 1 climb, 2 descent
         alt = np.full(s_mid.size, a.altitude_ft)
+        mid_alt = a.altitude_ft + 0.5 * dz  # the climb or descent covers ground at its mean true airspeed
         if dz > 0:
-            change = dz / (aircraft.climb_rate_fpm / 60.0) * aircraft.tas_climb_kt * KT
+            change = dz / (aircraft.climb_rate_fpm / 60.0) * aircraft.true_airspeed_ms("climb", mid_alt)
             frac = np.clip(s_mid / change, 0.0, 1.0) if change < dist else s_mid / dist
             alt = a.altitude_ft + dz * frac
             phase[frac < 1.0] = 1
         elif dz < 0:
-            change = -dz / (aircraft.descent_rate_fpm / 60.0) * aircraft.tas_descent_kt * KT
+            change = -dz / (aircraft.descent_rate_fpm / 60.0) * aircraft.true_airspeed_ms("descent", mid_alt)
             start = max(dist - change, 0.0)
             frac = np.clip((s_mid - start) / max(dist - start, 1e-9), 0.0, 1.0)
             alt = a.altitude_ft + dz * frac
             phase[frac > 0.0] = 2
-        tas = np.choose(phase, [tas_cruise, aircraft.tas_climb_kt * KT, aircraft.tas_descent_kt * KT])
+        # true airspeeds by altitude from the aircraft's schedule (a waypoint's own speed is flown as given)
+        cruise = np.full(s_mid.size, a.speed_kt * KT) if a.speed_kt else aircraft.true_airspeed_ms("cruise", alt)
+        tas = np.choose(phase, [cruise, aircraft.true_airspeed_ms("climb", alt),
+                                aircraft.true_airspeed_ms("descent", alt)])
         if a.flight_level and b.flight_level:
             fl = np.ones(s_mid.size, dtype=bool)
         elif not a.flight_level and not b.flight_level:

@@ -20,6 +20,7 @@ __all__ = [
     "hypsometric_heights", "interp_last_axis", "height_at_pressure", "pressure_at_height",
     "standard_atmosphere_pressure", "standard_atmosphere_height", "standard_atmosphere_temperature",
     "pressure_altitude_ft", "pressure_from_pressure_altitude_ft", "flight_level_to_pressure",
+    "GAMMA", "speed_of_sound", "true_airspeed_from_calibrated",
 ]
 
 RD = 287.04749097718457  # J/(kg K), dry air (as MetPy)
@@ -301,3 +302,32 @@ def pressure_from_pressure_altitude_ft(altitude_ft):
 def flight_level_to_pressure(flight_level):
     """Pressure (Pa) of a flight level (hundreds of feet of pressure altitude): FL180 -> about 506 hPa."""
     return pressure_from_pressure_altitude_ft(np.asarray(flight_level, dtype=float) * 100.0)
+
+
+GAMMA = 1.4  # ratio of specific heats of dry air (as the standard atmosphere takes it)
+
+
+def speed_of_sound(temperature):
+    """Speed of sound in dry air (m/s) at a temperature (K): sqrt(gamma R T) (295.07 m/s at 216.65 K in the
+    US Standard Atmosphere 1976)."""
+    return np.sqrt(GAMMA * _R_STD * np.asarray(temperature, dtype=float))
+
+
+def true_airspeed_from_calibrated(calibrated_airspeed, pressure, temperature):
+    """True airspeed (m/s) from calibrated airspeed (m/s) at a static pressure (Pa) and temperature (K).
+
+    Subsonic isentropic flow, the relations behind every airspeed indicator (calibrated to the standard
+    atmosphere at sea level, p0 = 101325 Pa, a0 = 340.29 m/s):
+
+    .. math:: q_c = p_0 [(1 + \\tfrac{\\gamma - 1}{2} (V_c/a_0)^2)^{\\gamma/(\\gamma-1)} - 1], \\quad
+              M = \\sqrt{\\tfrac{2}{\\gamma - 1} [(q_c/p + 1)^{(\\gamma-1)/\\gamma} - 1]}, \\quad V = M a(T)
+
+    Equal to the calibrated airspeed at sea level in the standard atmosphere; 250 kt calibrated is about
+    288 kt true at 10,000 ft.
+    """
+    vc = np.asarray(calibrated_airspeed, dtype=float)
+    a0 = speed_of_sound(288.15)
+    g = GAMMA
+    qc = 101325.0 * ((1.0 + 0.5 * (g - 1.0) * (vc / a0) ** 2) ** (g / (g - 1.0)) - 1.0)
+    mach = np.sqrt(2.0 / (g - 1.0) * ((qc / np.asarray(pressure, dtype=float) + 1.0) ** ((g - 1.0) / g) - 1.0))
+    return mach * speed_of_sound(temperature)

@@ -8,7 +8,6 @@ gets a typed error naming the file, line and reason). Formats: RFC 4180 (CSV), R
 
 import itertools
 import json
-from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
@@ -16,10 +15,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from icing.errors import RouteFormatError
+from icing.flight.aircraft import Aircraft
 from icing.flight.route import ALTITUDE_LIMITS_FT, TIME_LIMITS, Route, plan_geometry, read_route, timed_arrays
 
-PLANE = SimpleNamespace(tas_climb_kt=160.0, tas_cruise_kt=240.0, tas_descent_kt=220.0, climb_rate_fpm=1000.0,
-                        descent_rate_fpm=1500.0, body_diameter_m=0.05, name="fuzz")
+PLANE = Aircraft(tas_climb_kt=160.0, tas_cruise_kt=240.0, tas_descent_kt=220.0, climb_rate_fpm=1000.0,
+                 descent_rate_fpm=1500.0, body_diameter_m=0.05, name="fuzz", description="constant true airspeeds")
 COUNTER = itertools.count()
 SETTINGS = settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 
