@@ -405,7 +405,12 @@ def check_pressure_unit(p, label="hPa", file=None, line=None, column=None):
                                   f"{P_RANGE[1]:g} hPa: they look like Pa but are labelled {label}", file=file,
                                   line=line, column=column)
     if fin.max() < 120.0:
-        likely = "hPa labelled Pa" if fin.max() <= 11.0 else "kPa labelled hPa"
+        if fin.max() > 11.0:
+            likely = f"kPa labelled {label}" if label != "kPa" else "values 10 times too small"
+        elif label == "Pa":
+            likely = "hPa labelled Pa"
+        else:
+            likely = f"hPa or mb values divided by 100 (Pa read as hPa twice?), labelled {label}"
         raise ProfileQualityError(f"the highest pressure is {fin.max():g} hPa: a sounding surface that high is not "
                                   f"plausible; the values look like {likely} (column labelled {label})", file=file,
                                   line=line, column=column)
