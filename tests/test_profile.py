@@ -188,7 +188,8 @@ def test_level_below_the_ground_dropped():
 
 @pytest.mark.parametrize("kwargs, pattern", [
     ({"pressure": P * 100 * units.hPa}, "look like Pa"),
-    ({"pressure": P / 100 * units.hPa}, "hPa labelled Pa"),
+    ({"pressure": P * units.Pa}, "hPa labelled Pa"),
+    ({"pressure": P / 100 * units.hPa}, "100 times too small"),
     ({"temperature": T * units.K}, "look like degC but are labelled K"),
     ({"relative_humidity": np.array([0.9, 0.8, 0.95, 0.6, 0.4])}, "fraction"),
 ])
