@@ -410,7 +410,7 @@ def check_pressure_unit(p, label="hPa", file=None, line=None, column=None):
         elif label == "Pa":
             likely = "hPa labelled Pa"
         else:
-            likely = f"hPa or mb values divided by 100 (Pa read as hPa twice?), labelled {label}"
+            likely = f"values 100 times too small for {label}"
         raise ProfileQualityError(f"the highest pressure is {fin.max():g} hPa: a sounding surface that high is not "
                                   f"plausible; the values look like {likely} (column labelled {label})", file=file,
                                   line=line, column=column)
