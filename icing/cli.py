@@ -126,6 +126,9 @@ def _add_screen_options(sp):
     sp.add_argument("--departure", metavar="ISO",
                     help="departure time, ISO 8601 UTC; when given it is the departure: a route's own times are "
                     "all moved by the same amount, with a note; e.g. --departure 2026-01-15T05:00Z")
+    sp.add_argument("--min-altitude", type=float, default=2000.0, metavar="FT",
+                    help="lowest altitude a suggested alternative may use, ft (default 2000: give the route's "
+                    "minimum safe altitude, which this tool does not know); e.g. --min-altitude 4500")
     sp.add_argument("--step", type=float, default=60.0, metavar="SECONDS",
                     help="time between trajectory samples, s (default 60); e.g. --step 30")
     sp.add_argument("--max-distance", type=float, default=300.0, metavar="KM",
@@ -252,7 +255,8 @@ def _screen(args, route, soundings):
                                        reference_time=args.reference_time)
         progress.step("screening the route")
         try:
-            result = assess_route(route, source, ac, step_s=args.step, departure=args.departure)
+            result = assess_route(route, source, ac, step_s=args.step, departure=args.departure,
+                                  min_altitude_ft=getattr(args, "min_altitude", 2000.0))
         except IcingError as exc:
             raise _name_option(exc, args) from None
         fmt = "json" if args.json else args.format

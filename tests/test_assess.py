@@ -273,3 +273,30 @@ def test_departure_overrides_a_route_object(source):
     res = assess_route(route, source, "turboprop", departure="2026-01-15T09:00Z")
     assert res.summary["departure"] == "2026-01-15T09:00:00Z"
     assert res.segments["start_time"].iloc[0] == pd.Timestamp("2026-01-15T09:00Z")
+
+
+def test_alternatives_respect_the_minimum_altitude(source):
+    """An alternative is never offered below the minimum altitude the user gives (this tool knows neither
+    terrain nor airspace: common practice of route planning, no published source): at FL080 in the deck with
+    the minimum at 12,000 ft only the climbs remain, and with it above every offset only the plan itself."""
+    route = level([(50.0, -20.0), (51.0, -17.0)], "FL080")
+    res = assess_route(route, source, "turboprop", min_altitude_ft=12000.0)
+    best = res.segments["best_altitude_ft"].dropna()
+    assert (best >= 12000.0).all()
+    none = assess_route(route, source, "turboprop", min_altitude_ft=40000.0)
+    assert (none.segments["best_altitude_ft"] == 8000.0).all()
+    assert none.alternatives.loc[none.alternatives["offset_ft"] != 0, "accretion_mm"].isna().all()
+
+
+def test_jet_descending_through_a_deck_below_10000_ft_collects_ice(source):
+    """A jet descending from FL200 through the supercooled deck (about 3,000-11,000 ft here) flies at most
+    250 kt indicated below 10,000 ft (14 CFR 91.117(a)), about 260-290 kt true: slow enough that kinetic
+    heating (V^2 / 2 c_p, about 10 K at 145 m/s: the energy equation, DESIGN.md) leaves the leading edge below
+    0 degC in -8 to -17 degC air, so it collects ice there."""
+    route = Route.from_points([("TOP", 50.0, -20.0, "FL200"), ("LOW", 51.0, -17.0, 3000.0)],
+                              departure="2026-01-15T06:00Z")
+    res = assess_route(route, source, "regional-jet")
+    smp = res.samples
+    low = smp["altitude_ft"] < 10000
+    assert (smp.loc[low, "tas_ms"] < 152.0).all()  # below 10,000 ft: at most ~295 kt true
+    assert res.segments.loc[0, "icing_minutes"] > 0 and res.segments.loc[0, "accretion_mm"] > 0

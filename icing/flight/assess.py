@@ -39,13 +39,13 @@ EXTRA_COLUMNS = ["warm_surface_minutes", "max_lwc_g_m3", "mvd_um", "min_temperat
                  "supercooled_top_ft", "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
                  "best_accretion_mm", "lower_bound"]
 DEFAULT_OFFSETS_FT = (-6000.0, -4000.0, -2000.0, 2000.0, 4000.0, 6000.0)
-MIN_ALTERNATIVE_FT = 2000.0  # alternatives below this are not offered (terrain and airspace are unknown here)
+MIN_ALTERNATIVE_FT = 2000.0  # default lowest alternative offered (terrain and airspace are unknown here)
 FULL = 0.999  # coverage at or above this counts as complete data
 # Options of assess_route besides its named parameters, by where they go.
 MATCH_OPTIONS = ("max_distance_km", "max_age_hours", "max_stations")
 DIAGNOSE_OPTIONS = ("cold_limit", "airmass")
 READ_OPTIONS = ("stations", "reference_time")
-ROUTE_OPTIONS = ("transition_ft",)
+ROUTE_OPTIONS = ("transition_ft", "min_altitude_ft")
 
 
 def _threshold_options() -> tuple[str, ...] | None:
@@ -166,13 +166,18 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
         (timed legs keep their durations) and ``summary["notes"]`` says so; without it the route's own first time
         is used (see :class:`icing.flight.route.Route`).
     offsets_ft : sequence of float
-        Altitude offsets (ft) tried as alternatives, each applied to the whole route.
+        Altitude offsets (ft) tried as alternatives, each applied to the whole route, at the true airspeed the
+        aircraft flies at that altitude. An alternative counts for a segment only with complete data, above the
+        minimum altitude, and without a sample where supercooled drops hit a leading edge kept above 0 degC by
+        kinetic heating (its "no ice" would hide runback ice).
     use_winds : bool
         Ground speed from true airspeed plus the sounding winds where known.
     options :
         ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass`` and the
         cloud thresholds (diagnosis), ``stations`` and ``reference_time`` (TEMP reports): these build the source
-        and are refused with a source already built; ``transition_ft``. Any other name raises ``TypeError``.
+        and are refused with a source already built; ``transition_ft``; ``min_altitude_ft``, the lowest
+        altitude an alternative may use (default :data:`MIN_ALTERNATIVE_FT`, 2,000 ft: this tool knows neither
+        terrain nor airspace, so give the route's minimum safe altitude). Any other name raises ``TypeError``.
 
     Returns
     -------
@@ -273,11 +278,23 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         data_distance_km=atm["distance_km"], data_age_h=atm["age_h"])
     # Alternatives: the whole route shifted by each offset; per segment the least accretion with full data.
     alt_acc = {}
+    lowest = float(options.get("min_altitude_ft", MIN_ALTERNATIVE_FT))
+    phase = traj["phase"].to_numpy()
+    plan_alt = traj["altitude_ft"].to_numpy()
+    schedule = np.empty(len(traj))
+    for ph in ("cruise", "climb", "descent"):
+        sel = phase == ph
+        schedule[sel] = ac.true_airspeed_ms(ph, plan_alt[sel]) if sel.any() else 0.0
     for off in offsets_ft:
         a2, alt2 = _sample_atmosphere(source, traj, off, weights=weights)
-        r2 = _accrete(a2, tas, ac.body_diameter_m)[0]
-        acc2 = np.where((a2["coverage"] >= FULL) & (alt2 >= MIN_ALTERNATIVE_FT), r2 * dur / 3600.0, np.nan)
-        alt_acc[off] = acc2
+        tas2 = tas.copy()  # the same schedule (or the planned speeds, scaled) at the other altitude
+        for ph in ("cruise", "climb", "descent"):
+            sel = phase == ph
+            if sel.any():
+                tas2[sel] = tas[sel] * ac.true_airspeed_ms(ph, alt2[sel]) / schedule[sel]
+        r2, _, _, warm2 = _accrete(a2, tas2, ac.body_diameter_m)
+        ok = (a2["coverage"] >= FULL) & (alt2 >= lowest) & ~warm2
+        alt_acc[off] = np.where(ok, r2 * dur / 3600.0, np.nan)
     segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice,
                                              ac.icing_certified)
     out = []
