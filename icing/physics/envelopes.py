@@ -195,16 +195,23 @@ def intensity_for_conditions(rate_code, lwc_g_m3, mvd_um, temperature_c, large_d
     are held to the envelope's -30 degC (the figure ends there; the cold alone is no reason for a worse word).
     """
     code = np.asarray(rate_code).astype(np.int8)
-    w, d, tc = (np.asarray(x, dtype=float) for x in (lwc_g_m3, mvd_um, temperature_c))
+    shape = np.broadcast_shapes(code.shape, *(np.shape(x) for x in (lwc_g_m3, mvd_um, temperature_c, large_drop)))
+    out = np.array(np.broadcast_to(code, shape))
+    growing = np.flatnonzero(out >= 1)  # only where ice grows can the word change (a few levels of a grid)
+    if growing.size == 0:
+        return out
+    w, d, tc, large = (np.broadcast_to(np.asarray(x, dtype=float), shape).ravel()[growing]
+                       for x in (lwc_g_m3, mvd_um, temperature_c, large_drop))
     cont = APPENDIX_C["continuous_max"]
     with np.errstate(invalid="ignore"):
         limit = continuous_max_lwc_si(np.clip(d, cont["mvd_um"][0], cont["mvd_um"][1]),
                                       np.clip(tc, cont["temperature_c"][0], cont["temperature_c"][1]))
         above = (w > limit) | (d > cont["mvd_um"][1])
-    large = np.nan_to_num(np.asarray(large_drop, dtype=float)) > 0
-    growing = code >= 1
-    out = np.where(growing & (above | large), np.maximum(code, 3), code)
+    large = np.nan_to_num(large) > 0
+    c = out.ravel()[growing]
+    c = np.where(above | large, np.maximum(c, 3), c)
     if icing_certified:
         within = ~above & ~large & np.isfinite(w) & np.isfinite(d) & np.isfinite(tc)
-        out = np.where(within, np.minimum(out, 3), out)
+        c = np.where(within, np.minimum(c, 3), c)
+    out.ravel()[growing] = c
     return out.astype(np.int8)
