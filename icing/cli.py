@@ -106,6 +106,22 @@ def _add_reader_options(p):
                    "v2 station list; e.g. --stations stations.csv")
     p.add_argument("--reference-time", metavar="ISO", help="month and year of TEMP reports, which carry only day "
                    "and hour; e.g. --reference-time 2026-01-15")
+    p.add_argument("--units", action="append", metavar="VARIABLE=UNIT",
+                   help="unit of a table column or netCDF variable whose header names none (repeatable); "
+                   "e.g. --units temperature=degC --units pressure=hPa")
+
+
+def _units_option(values):
+    """``--units VARIABLE=UNIT`` options as a mapping (None without any)."""
+    if not values:
+        return None
+    out = {}
+    for item in values:
+        if "=" not in item:
+            raise IcingError(f"--units {item!r}: write VARIABLE=UNIT, e.g. --units temperature=degC")
+        k, v = item.split("=", 1)
+        out[k.strip()] = v.strip()
+    return out
 
 
 def _add_physics_options(p):
@@ -252,7 +268,7 @@ def _screen(args, route, soundings):
         else:
             source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
                                        cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
-                                       reference_time=args.reference_time)
+                                       reference_time=args.reference_time, units=_units_option(args.units))
         progress.step("screening the route")
         try:
             result = assess_route(route, source, ac, step_s=args.step, departure=args.departure,
@@ -338,7 +354,8 @@ def _layers(args):
 
     frames = []
     for path in args.soundings:
-        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time):
+        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time,
+                                  units=_units_option(args.units)):
             t = supercooled_layers(prof, cold_limit=args.cold_limit, airmass=args.airmass)
             t.insert(0, "time", prof.attrs.get("time", ""))
             t.insert(0, "station", prof.attrs.get("station", ""))
@@ -381,7 +398,8 @@ def _inspect(args):
     from icing.profile import format_quality
 
     for path in args.soundings:
-        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time):
+        for prof in read_profiles(path, stations=args.stations, reference_time=args.reference_time,
+                                  units=_units_option(args.units)):
             a = prof.attrs
             print(f"{a.get('station', '?')} {a.get('name', '')} {a.get('time', '')} lat {a.get('latitude')} "
                   f"lon {a.get('longitude')} elevation {a.get('elevation')} m  [{a.get('format')}: {a.get('source')}]")
@@ -458,7 +476,11 @@ def main(argv=None) -> int:
             return grid_main(args)
         parser.error("give a command: screen, demo, layers, plot, inspect or aircraft")
     except IcingError as exc:
-        print(f"icing: error: {exc}", file=sys.stderr)
+        import re
+
+        # the library names its parameters; on the command line the option is --units VARIABLE=UNIT
+        text = re.sub(r"units=\{'(\w+)': '([^']+)'\}", r"--units \1=\2", str(exc))
+        print(f"icing: error: {text}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("icing: interrupted", file=sys.stderr)

@@ -44,7 +44,7 @@ FULL = 0.999  # coverage at or above this counts as complete data
 # Options of assess_route besides its named parameters, by where they go.
 MATCH_OPTIONS = ("max_distance_km", "max_age_hours", "max_stations")
 DIAGNOSE_OPTIONS = ("cold_limit", "airmass")
-READ_OPTIONS = ("stations", "reference_time")
+READ_OPTIONS = ("stations", "reference_time", "units")
 ROUTE_OPTIONS = ("transition_ft", "min_altitude_ft")
 
 
@@ -174,7 +174,8 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
         Ground speed from true airspeed plus the sounding winds where known.
     options :
         ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass`` and the
-        cloud thresholds (diagnosis), ``stations`` and ``reference_time`` (TEMP reports): these build the source
+        cloud thresholds (diagnosis), ``stations`` and ``reference_time`` (TEMP reports), ``units`` (tables
+        without units in the header): these build the source
         and are refused with a source already built; ``transition_ft``; ``min_altitude_ft``, the lowest
         altitude an alternative may use (default :data:`MIN_ALTERNATIVE_FT`, 2,000 ft: this tool knows neither
         terrain nor airspace, so give the route's minimum safe altitude). Any other name raises ``TypeError``.

@@ -125,7 +125,8 @@ def read_paths(paths, progress=None, **options) -> list:
         try:
             out.extend(read_profiles(f, **options))
         except SoundingFormatError as exc:
-            if not (lenient and ("not a known sounding format" in exc.reason or "gridded model fields" in exc.reason)):
+            if not (lenient and any(why in exc.reason for why in ("not a known sounding format", "gridded model fields",
+                                                                   "not an upper-air sounding"))):
                 raise
         if progress is not None:
             progress(k + 1, len(files), f.name)
