@@ -492,7 +492,8 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
     results = xr.apply_ufunc(
         core, *inputs, input_core_dims=[["level"]] * len(inputs),
         output_core_dims=[["level"]] * len(LEVEL_OUTPUTS) + [[]] * len(PROFILE_OUTPUTS),
-        dask="parallelized", output_dtypes=[_DTYPES.get(k, float) for k in names],
+        dask="parallelized" if any(getattr(a.data, "chunks", None) is not None for a in inputs) else "forbidden",
+        output_dtypes=[_DTYPES.get(k, float) for k in names],
         dask_gufunc_kwargs={"allow_rechunk": False}, keep_attrs=False)
     keep = [v for v in ("pressure", "height", "temperature", "dewpoint", "relative_humidity", "cloud_liquid",
                         "qc_flag") if v in profiles]
