@@ -374,3 +374,19 @@ def within_height_windows(profile):
         if p in windows and not windows[p][0] <= h < windows[p][1]:
             return False
     return True
+
+
+def value_at_pressure(ds, p, name):
+    """The value of ``name`` at the one level of ``ds`` whose pressure is ``p`` hPa (test helper)."""
+    idx = np.flatnonzero(np.isclose(ds["pressure"].values, p))
+    assert idx.size == 1, f"no level at {p} hPa"
+    return float(ds[name].values[idx[0]])
+
+
+def decode_one(text, **kw):
+    """The one profile that TEMP ``text`` decodes to (test helper)."""
+    from icing.io import temp
+
+    profiles = temp.decode_temp(text, **kw)
+    assert len(profiles) == 1
+    return profiles[0]

@@ -19,6 +19,8 @@ from numpy.testing import assert_allclose
 
 sys.path.insert(0, str(Path(__file__).parent))
 
+from encoders import decode_one, value_at_pressure  # noqa: E402
+
 from icing.errors import IcingWarning  # noqa: E402
 from icing.io import reader_for, temp  # noqa: E402
 
@@ -31,16 +33,8 @@ PART_A = f"{HEAD_A} {BODY_A}"
 PART_B = "TTBB 6500/ 00101 00012 04456 11950 04656 22880 03462 33700 08160=\n"
 
 
-def _at(ds, p, name):
-    idx = np.flatnonzero(np.isclose(ds["pressure"].values, p))
-    assert idx.size == 1, f"no level at {p} hPa"
-    return float(ds[name].values[idx[0]])
-
-
-def _one(text, **kw):
-    profiles = temp.decode_temp(text, **kw)
-    assert len(profiles) == 1
-    return profiles[0]
+_at = value_at_pressure
+_one = decode_one
 
 
 # --- framing ----------------------------------------------------------------------------------------------

@@ -19,6 +19,8 @@ from numpy.testing import assert_allclose
 
 sys.path.insert(0, str(Path(__file__).parent))
 
+from encoders import decode_one, value_at_pressure  # noqa: E402
+
 from icing.errors import IcingWarning, SoundingFormatError  # noqa: E402
 from icing.io import reader_for, temp  # noqa: E402
 
@@ -35,16 +37,8 @@ PART_A = "TTAA 65001 00101 " + BODY_A
 PART_B = "TTBB 6500/ 00101 " + BODY_B
 
 
-def _at(ds, p, name):
-    idx = np.flatnonzero(np.isclose(ds["pressure"].values, p))
-    assert idx.size == 1, f"no level at {p} hPa"
-    return float(ds[name].values[idx[0]])
-
-
-def _one(text, **kw):
-    profiles = temp.decode_temp(text, **kw)
-    assert len(profiles) == 1
-    return profiles[0]
+_at = value_at_pressure
+_one = decode_one
 
 
 # --- section 1 of the ship, drop and mobile forms ---------------------------------------------------------
