@@ -336,3 +336,27 @@ def test_time_tolerance():
     assert strict["coverage"][0] == 0.0
     assert loose["temperature"][0] == pytest.approx(at_end["temperature"][0], abs=1e-12)
     assert loose["age_h"][0] == pytest.approx(2.0)
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")  # the checker's own deprecated IOOS SOS plug-ins
+def test_grid_file_follows_the_cf_conventions(tmp_path, demo_model):
+    """`icing grid --out` writes what the CF conventions allow (IOOS compliance-checker's CF-1.8 suite, PyPI
+    compliance-checker): no high-priority finding; no diagnostic inherits the pressure's standard_name or unit;
+    flags and booleans carry no units. The one medium finding left is CF 2.4's recommended T, Z, Y, X order:
+    our level index is last on purpose (one column in one chunk), and CF recommends rather than requires it."""
+    import json
+
+    runner = pytest.importorskip("compliance_checker.runner")
+    runner.CheckSuite().load_all_available_checkers()
+    args = build_parser().parse_args(["grid", str(demo_model), "--out", str(tmp_path / "g.nc"), "--quiet"])
+    assert grid_main(args) == 0
+    out = tmp_path / "g.json"
+    runner.ComplianceChecker.run_checker(str(tmp_path / "g.nc"), ["cf:1.8"], 0, "strict", output_filename=str(out),
+                                         output_format="json")
+    report = json.loads(out.read_text())["cf:1.8"]
+    assert report["high_count"] == 0, report["high_priorities"]
+    with xr.open_dataset(tmp_path / "g.nc", engine="h5netcdf") as ds:
+        for name in ("lwc", "in_cloud", "supercooled", "large_drop", "potential_intensity", "valid", "rh_water"):
+            assert ds[name].attrs.get("standard_name") != "air_pressure", name
+        for name in ("in_cloud", "large_drop", "potential_intensity", "max_potential_intensity"):
+            assert "units" not in ds[name].attrs, name

@@ -43,7 +43,7 @@ ACCRETION_OUTPUTS = ("potential_rate", "potential_intensity", "ice_type")
 SUMMARY_OUTPUTS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", "supercooled_top_m",
                    "max_potential_intensity", "max_potential_rate")
 _DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool, "large_drop": np.int8,
-           "cloud_kind": np.int8, "precipitation_type": np.int8, "freezing_level_count": np.int64,
+           "cloud_kind": np.int8, "precipitation_type": np.int8, "freezing_level_count": np.int32,
            "potential_intensity": np.int8, "ice_type": np.int8, "max_potential_intensity": np.int8}
 _ATTRS = {
     "potential_rate": {"units": "mm/h", "long_name": "ice thickness growth rate on the aircraft's reference "
@@ -316,13 +316,14 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
                         icing_certified=bool(getattr(ac, "icing_certified", False)), cold_limit=ck, airmass=airmass,
                         **thresholds)
+        out["freezing_level_count"] = out["freezing_level_count"].astype(np.int32)  # (CF: 32-bit integers)
         return tuple(out[k] for k in names) if len(names) > 1 else out[names[0]]
 
     core_dims = [["level"] if n in level_names else ["crossing"] if n == "freezing_levels" else []
                  for n in names]
     results = xr.apply_ufunc(
         core, *inputs, input_core_dims=[["level"]] * len(inputs), output_core_dims=core_dims,
-        dask="parallelized", output_dtypes=[_DTYPES.get(n, float) for n in names],
+        dask="parallelized", output_dtypes=[_DTYPES.get(n, float) for n in names], keep_attrs=False,
         dask_gufunc_kwargs={"allow_rechunk": False, **({"output_sizes": {"crossing": N_FREEZING_LEVELS}}
                                                        if "freezing_levels" in names else {})})
     if len(names) == 1:  # apply_ufunc gives one output alone, not in a tuple
@@ -334,7 +335,12 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
     for name, da, dims in zip(names, results, core_dims, strict=True):
         ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or FIELD_ATTRS.get(name, {}))
     if "freezing_levels" in names:
-        ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1))
+        ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1, dtype=np.int32))
+    if "level" in ds.coords and np.issubdtype(ds["level"].dtype, np.integer):
+        ds = ds.assign_coords(level=ds["level"].astype(np.int32))  # (CF: 32-bit integers)
+    for name, attrs in _COORD_ATTRS.items():
+        if name in ds.coords:
+            ds[name].attrs.update({k: v for k, v in attrs.items() if k not in ds[name].attrs})
     ds.attrs = {k: v for k, v in model.attrs.items() if k not in ("featureType", "icing_model")}
     ds.attrs.update({"cold_limit": float(cold_limit), "cold_limit_units": "degC", "airmass": str(airmass),
                      "lwc_source": "model cloud liquid" if has_cl else "adiabatic", "caution": CAUTION,
@@ -401,13 +407,33 @@ def scheduler(workers=None, address=None, *, threads_per_worker=1, processes=Tru
 
 
 def _encodable(ds):
+    """The Dataset as the CF conventions want it written: coordinates without fill values, times in hours,
+    the history attribute."""
+    import datetime as _dt
+
     out = ds.copy()
     out.attrs = dict(ds.attrs)
     out.attrs["quality_json"] = json.dumps(out.attrs.pop("quality", []))
     for k, v in list(out.attrs.items()):
         if v is None or isinstance(v, dict | list):
             out.attrs[k] = json.dumps(v)
+    out.attrs.setdefault("Conventions", "CF-1.8")
+    out.attrs["history"] = (f"{_dt.datetime.now(_dt.UTC):%Y-%m-%dT%H:%M:%SZ} written by icing grid "
+                            "(advisory only)")
+    for name in out.coords:
+        out[name].encoding["_FillValue"] = None
+        if np.issubdtype(out[name].dtype, np.datetime64):
+            out[name].encoding.update({"dtype": "float64", "units": "hours since 1970-01-01 00:00:00"})
     return out
+
+
+_COORD_ATTRS = {  # CF attributes of the grid's coordinates
+    "level": {"long_name": "index of the pressure level, surface first"},
+    "time": {"standard_name": "time", "long_name": "valid time"},
+    "latitude": {"standard_name": "latitude", "long_name": "latitude", "units": "degrees_north"},
+    "longitude": {"standard_name": "longitude", "long_name": "longitude", "units": "degrees_east"},
+    "crossing": {"long_name": "number of the 0 degC crossing, lowest first"},
+}
 
 
 class _Targets:
