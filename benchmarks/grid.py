@@ -12,16 +12,15 @@ Measures, on a synthetic 0.25 degree regional grid with 40 pressure levels (our 
 
 Level-points per second = columns x levels / wall time. Run: ``python benchmarks/grid.py [--times 8]``.
 
-Measured on the 2-CPU development machine (shared with other jobs, load average 1-3 before each run), in M
-level-points/s, eager / dask threaded / distributed: before the speed-up of the diagnosis chain 0.80 / 0.81 /
-0.26 (load 2.9) and 1.71 / 1.53 / 1.23 (load 1.7); after it 2.40 / 2.41 / 1.56, 2.77 / 2.29 / 1.68,
-3.01 / 2.29 / 1.49 and 2.48 / 2.34 / 1.58 (load 1.1-1.5). Inside a dask or distributed worker thread
-``diagnose_arrays`` now runs its blocks in that one thread (no oversubscription of the cores).
-With the fused numba engine (icing.physics.fused; load 0.9): eager 6.20, dask threaded 6.19, distributed 1.92 M/s
-(numpy engine in the same run 2.19 / 2.30), 2.6 % of the numpy pass. The kernel alone does about 8 M level-points
-per second on one core, 40 % of it in exp/log (six per level, for the humidities); the rest of a chunk's time is
-the accretion heat balance of the supercooled levels and the numpy glue, and distributed pays dask's cost per
-task (about 20 tasks a chunk).
+Measured on the 2-CPU development machine with the one compiled engine (load 1.4-1.8, noisy humidity, 6 times):
+eager 9.2-9.9 M level-points/s, dask threaded 5.1-5.8 (7.5-9.0 with the pool set to two workers explicitly, chunks
+of 60 or 120 columns a side), distributed 3.1-3.4; the MetPy loop 0.0059-0.0062 M/s, so threaded 810-980x and
+eager 1,500-1,700x the loop: the 2,000x target is not met. Where the time goes (cProfile and timing of the parts,
+one time of the grid, 0.78 M level-points): the diagnosis kernel about 9.5 M level-points/s on one core, most of
+it the six exp/log of the humidities per level (numba here has no vector math library, so they run one by one);
+the column summaries, potential codes and envelope words (compiled or restricted to the icing levels) and the
+heat balance of the supercooled levels about 10 % more; under dask, the per-task cost of about 20 tasks a chunk
+and the scheduler's thread pool; under distributed, its scheduling and communication on two shared cores.
 """
 
 from __future__ import annotations
