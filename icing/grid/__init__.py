@@ -3,6 +3,7 @@
 from icing.grid.diagnosis import (
     DEFAULT_CHUNK_POINTS,
     N_FREEZING_LEVELS,
+    SUMMARY_OUTPUTS,
     chunk_model,
     column_summaries,
     diagnose_grid,
@@ -13,4 +14,4 @@ from icing.grid.diagnosis import (
 )
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
-           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
+           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS", "SUMMARY_OUTPUTS"]

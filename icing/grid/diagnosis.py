@@ -34,7 +34,7 @@ from icing.physics.jit import jitable
 from icing.units import KT, dataarray_to_unit
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
-           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS"]
+           "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS", "SUMMARY_OUTPUTS"]
 
 N_FREEZING_LEVELS = 3  # freezing levels kept per column, lowest first
 DEFAULT_CHUNK_POINTS = 400_000  # level-points per chunk: ~3 MB per float64 field, a few hundred MB of temporaries

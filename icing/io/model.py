@@ -246,7 +246,7 @@ def _valid_time(ds, quality, source=None):
 
     cfgrib gives a reference ``time`` and a forecast ``step`` (each a dimension when the file holds several,
     else a scalar) and their sum ``valid_time``; several of both are folded into one dimension. A valid time
-    that occurs twice (two runs for the same hour) is an error, as in :func:`icing.grid.open_model`.
+    that occurs twice (two runs for the same hour) is an error, as in :func:`icing.grid.diagnosis.open_fields`.
     """
     if "step" in ds.dims or ("valid_time" in ds.coords and "valid_time" not in ds.dims):
         if "valid_time" not in ds.coords:
