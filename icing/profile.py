@@ -657,13 +657,17 @@ def stack_profiles(profiles) -> xr.Dataset:
     """Stack profiles into one Dataset with a leading ``profile`` dimension (levels padded with NaN).
 
     Per-profile metadata (station, latitude, longitude, elevation, time, source, format) become variables
-    along ``profile``; ``quality`` stays a list of entries, each tagged with its profile index.
+    along ``profile``; other numeric per-level variables are kept (as floats, NaN where a profile lacks them);
+    ``quality`` stays a list of entries, each tagged with its profile index.
     """
     profiles = list(profiles)
     if not profiles:
         raise ProfileQualityError("no profiles to stack")
     nlev = max(p.sizes["level"] for p in profiles)
     names = [n for n in list(VARIABLES) + ["qc_flag"] if any(n in p for p in profiles)]
+    # other per-level variables a reader kept (a BUFR ascent's record time and drift, say) come along too
+    names += sorted({n for p in profiles for n, v in p.data_vars.items()
+                     if v.dims == ("level",) and n not in names and np.issubdtype(v.dtype, np.number)})
     arrays = {}
     for n in names:
         fill = 0 if n == "qc_flag" else np.nan

@@ -219,3 +219,18 @@ def test_below_the_ground_without_any_height():
 def test_percent_labelled_as_a_fraction():
     with pytest.raises(ProfileQualityError, match="percent labelled as a fraction"):
         build_profile(P, T, relative_humidity=np.array([90.0, 80, 95, 60, 40]) * units.dimensionless)
+
+
+def test_stacking_keeps_other_per_level_variables():
+    """stack_profiles keeps a reader's extra per-level variables (a high-resolution ascent's record time and
+    drift, WMO BUFR descriptors 0 04 086 and 0 05 015/0 06 015), padded with NaN where a profile has none:
+    nothing a reader kept is dropped silently (project rule)."""
+    from icing.profile import stack_profiles
+
+    a = build_profile([1000.0, 900.0, 800.0], [5.0, 0.0, -5.0], dewpoint=[2.0, -1.0, -8.0], station="A")
+    b = build_profile([1000.0, 850.0], [4.0, -2.0], dewpoint=[1.0, -4.0], station="B")
+    a["elapsed_time"] = ("level", np.array([0.0, 240.0, 480.0]), {"units": "s"})
+    both = stack_profiles([a, b])
+    assert "elapsed_time" in both and both["elapsed_time"].attrs["units"] == "s"
+    np.testing.assert_array_equal(both["elapsed_time"].values[0], [0.0, 240.0, 480.0])
+    assert np.isnan(both["elapsed_time"].values[1]).all()
