@@ -304,21 +304,29 @@ def _surface_temperature(mask, over_ice, h, f, ta, ea, evap, heating, iterations
 
 # ---------------------------------------------------------------------------------------- ice type and density
 def rime_density_si(droplet_diameter, impact_speed, surface_temperature):
-    """Density (kg/m3) of rime from Macklin (1962): :math:`\\rho = 110 R^{0.76}`, R = -d v0 / (2 t_s).
+    """Density (kg/m3) of rime from the Macklin parameter R = -d v0 / (2 t_s), within the ranges measured.
 
     In Macklin's units: d the median volume diameter in micrometres, v0 the impact speed in m/s, t_s the
-    surface temperature in deg C (below 0). Published for 0.8 <= R <= 10 (rho about 93-633 kg/m3). Outside
-    that range (our choice): R below 0.8 is held at 0.8; above 10 the power law is carried on, and the result
-    is capped at 917 kg/m3 (bubble-free ice), which it reaches near R = 16. A surface at 0 deg C gives 917.
-    Inputs in SI (m, m/s, K). The free-stream speed stands for the impact speed, an upper bound, so
-    aircraft rime usually comes out dense.
+    surface temperature in deg C (below 0).
+
+    .. math:: \\rho = 110 R^{0.76} \\quad (0.8 \\le R \\le 10), \\qquad
+              \\rho = 1000 R / (R + 5.61) \\quad (10 < R \\le 60)
+
+    Macklin (1962), Q. J. R. Meteorol. Soc. 88, 30-50, measured on cylinders for 0.8 <= R <= 10 (93-633 kg/m3);
+    Bain and Gayet (1983), as given by Makkonen (2000), Phil. Trans. R. Soc. A 358, for the high impact
+    parameters of 10 < R <= 60 (641-915 kg/m3; both from memory). Outside: R is held to 0.8 and to 60 (915
+    kg/m3, the densest rime measured), never extrapolated. A surface at 0 deg C gives the R = 60 value; glaze
+    (wet growth) is 917 kg/m3 elsewhere. Inputs in SI (m, m/s, K). The free-stream speed stands for the
+    impact speed, an upper bound, so aircraft rime usually comes out dense.
     """
     d_um = np.asarray(droplet_diameter, dtype=float) * 1e6
     tc = np.asarray(surface_temperature, dtype=float) - T0
     with np.errstate(divide="ignore", invalid="ignore"):
         r = np.where(tc < 0, -d_um * np.asarray(impact_speed, dtype=float) / (2.0 * np.minimum(tc, -1e-12)), np.inf)
-        rho = 110.0 * np.maximum(r, 0.8) ** 0.76
-    return np.where(np.isnan(r), np.nan, np.minimum(rho, RHO_GLAZE))
+        low = 110.0 * np.maximum(r, 0.8) ** 0.76
+        high_r = np.minimum(r, 60.0)
+        rho = np.where(r <= 10.0, low, 1000.0 * high_r / (high_r + 5.61))
+    return np.where(np.isnan(r), np.nan, rho)
 
 
 def ice_type_code(freezing_fraction):
