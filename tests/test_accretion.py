@@ -291,3 +291,15 @@ def test_accreted_ice_time_dependent():
     assert_allclose(d_long.m_as("m"), np.sqrt(0.02**2 + 4 * m_long.m_as("kg/m") / (np.pi * rho)), rtol=1e-9)
     with pytest.raises(UnitError, match="exposure_time"):
         acc.accreted_ice(*args, 10 * ureg.m)
+
+
+def test_heat_transfer_of_an_iced_cylinder():
+    """Makkonen (1985), rough iced cylinders: Nu = 0.032 Re^0.85 (from memory), recomputed by hand: 569 at
+    Re = 1e5; ice roughness raises the heat transfer above the smooth cylinder's (Churchill and Bernstein 1977)
+    at the Reynolds numbers of aircraft parts (Re 1e5-1e6), and the smooth value stands at small Re."""
+    pr = 0.71
+    assert_allclose(acc.nusselt_iced_cylinder_si(1e5, pr), 0.032 * 1e5**0.85, rtol=1e-12)
+    assert_allclose(acc.nusselt_iced_cylinder_si(1e5, pr), 569.0, rtol=2e-3)
+    re = np.array([1e5, 3e5, 1e6])
+    assert np.all(acc.nusselt_iced_cylinder_si(re, pr) > acc.nusselt_cylinder_si(re, pr))
+    assert acc.nusselt_iced_cylinder_si(100.0, pr) == acc.nusselt_cylinder_si(100.0, pr)
