@@ -239,3 +239,15 @@ def test_freezing_drizzle_from_warm_topped_cloud():
     out = diagnose_arrays(pa, tk, tdk, z)
     assert int(out["precipitation_type"]) == 1
     assert not out["large_drop"].any()
+
+
+def test_dry_column_with_a_warm_nose_has_no_large_drops():
+    """A warm nose aloft over cold air with no cloud above it: nothing falls, so nothing melts or refreezes
+    (Bourgouin 2000 types precipitation that falls; without a source there is none) and no level reads
+    supercooled rain or drizzle, while the warm layer aloft is still reported."""
+    nodes = _warm_nose(-4.0, 3.0)
+    pa, tk, tdk, z = _column(*nodes, cloud=(0.0, 0.0), dry=15.0)
+    out = diagnose_arrays(pa, tk, tdk, z)
+    assert int(out["precipitation_type"]) == 0
+    assert not (out["large_drop"] > 0).any()
+    assert out["warm_layer_aloft"].any()
