@@ -62,18 +62,18 @@ __all__ = ["parse_item15", "format_item15", "sniff_item15", "read_waypoints", "W
            "speed_level_group"]
 
 # 15 (a) and (b): speed and level, one group without a space (Doc 4444 App. 2, Item 15 (a), (b); from memory).
-_SPEED = r"(?P<speed>N\d{4}|M\d{3}|K\d{4})"
-_LEVEL = r"(?P<level>F\d{3}|A\d{3}|S\d{4}|M\d{4}|VFR)"
+_SPEED = r"(?P<speed>N[0-9]{4}|M[0-9]{3}|K[0-9]{4})"
+_LEVEL = r"(?P<level>F[0-9]{3}|A[0-9]{3}|S[0-9]{4}|M[0-9]{4}|VFR)"
 _SPEED_LEVEL = re.compile(_SPEED + _LEVEL)
 # 15 (c) 2: degrees only (7 characters), degrees and minutes (11 characters).
-_DEG = re.compile(r"(?P<la>\d{2})(?P<ns>[NS])(?P<lo>\d{3})(?P<ew>[EW])")
-_DEG_MIN = re.compile(r"(?P<la>\d{2})(?P<lam>\d{2})(?P<ns>[NS])(?P<lo>\d{3})(?P<lom>\d{2})(?P<ew>[EW])")
+_DEG = re.compile(r"(?P<la>[0-9]{2})(?P<ns>[NS])(?P<lo>[0-9]{3})(?P<ew>[EW])")
+_DEG_MIN = re.compile(r"(?P<la>[0-9]{2})(?P<lam>[0-9]{2})(?P<ns>[NS])(?P<lo>[0-9]{3})(?P<lom>[0-9]{2})(?P<ew>[EW])")
 # Bearing (3 figures, degrees) and distance (3 figures, NM) from a coded designator.
-_BEARING = re.compile(r"(?P<ref>[A-Z]{2,5})(?P<brg>\d{3})(?P<dist>\d{3})")
+_BEARING = re.compile(r"(?P<ref>[A-Z]{2,5})(?P<brg>[0-9]{3})(?P<dist>[0-9]{3})")
 _CODED = re.compile(r"[A-Z]{2,5}")
 # 15 (c) 1: an ATS route designator, 2 to 7 characters with at least one figure (departure and arrival routes
 # alike, such as a five-letter point followed by a figure and a letter).
-_AIRWAY = re.compile(r"(?=[A-Z0-9]*\d)[A-Z0-9]{2,7}")
+_AIRWAY = re.compile(r"(?=[A-Z0-9]*[0-9])[A-Z0-9]{2,7}")
 _M_TO_KMH = 3.6
 
 
