@@ -130,3 +130,16 @@ def test_reliability_of_shares(source):
     rm = res.reliability["p_moderate"]
     assert_allclose(rm.loc[rm["count"] > 0, "observed_frequency"].iloc[0], 0.25, rtol=1e-12)
     assert "p_icing" in res.matches.columns
+
+
+def test_files_written(source, tmp_path):
+    """matches.csv (one row a report), scores.json (NaN as null, the caution) and the reliability diagram."""
+    import json
+
+    res = verify_reports(parse_pireps(REPORTS, DATE), SharesSource(source))
+    paths = res.write(tmp_path / "out")
+    assert [p.name for p in paths] == ["matches.csv", "scores.json", "reliability.png"]
+    d = json.loads(paths[1].read_text())
+    assert d["scores"]["hits"] == 1 and "ADVISORY ONLY" in d["caution"]
+    assert d["scores"]["intensity"]["gerrity"] is None or np.isfinite(d["scores"]["intensity"]["gerrity"])
+    assert paths[2].stat().st_size > 0

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from icing.errors import ConfigError
 from icing.verify.pireps import INTENSITY_ORDER
 from icing.verify.scores import (
     ContingencyTable,
@@ -71,6 +72,49 @@ class Verification:
     def __iter__(self):
         return iter((self.matches, self.scores))
 
+    def to_dict(self) -> dict:
+        """Scores, reliability tables, skipped reports, notes and caution as JSON-ready values (NaN as None)."""
+
+        def clean(v):
+            if isinstance(v, dict):
+                return {k: clean(x) for k, x in v.items()}
+            if isinstance(v, list | tuple):
+                return [clean(x) for x in v]
+            if isinstance(v, np.generic):
+                v = v.item()
+            return None if isinstance(v, float) and v != v else v
+
+        rel = {k: {"bins": t.to_dict(orient="records"), **t.attrs} for k, t in self.reliability.items()}
+        return clean({"scores": self.scores, "intensity_table": self.intensity_table.to_dict(orient="index"),
+                      "reliability": rel, "skipped": self.skipped, "notes": self.notes, "caution": self.caution})
+
+    def write(self, out) -> list:
+        """Write ``matches.csv`` (one row a report), ``scores.json`` (:meth:`to_dict`) and, where the source gives
+        ``p_*`` shares, ``reliability.png`` (the reliability diagram) into the directory ``out``; returns the
+        paths written."""
+        import json
+        from pathlib import Path
+
+        out = Path(out)
+        out.mkdir(parents=True, exist_ok=True)
+        paths = [out / "matches.csv", out / "scores.json"]
+        self.matches.to_csv(paths[0], index=False)
+        paths[1].write_text(json.dumps(self.to_dict(), indent=1))
+        if self.reliability:
+            import matplotlib
+
+            matplotlib.use("Agg", force=False)
+            import matplotlib.pyplot as plt
+
+            from icing.verify.scores import plot_reliability
+
+            ax = plot_reliability(self.reliability)
+            ax.set_title("Reliability of the diagnosed shares against pilot reports", fontsize="small")
+            paths.append(out / "reliability.png")
+            ax.figure.savefig(paths[-1], dpi=120, bbox_inches="tight")
+            plt.close(ax.figure)
+        return paths
+
     def to_text(self) -> str:
         """The tables and measures as plain text (for the command line)."""
         s = self.scores
@@ -93,6 +137,8 @@ class Verification:
         m = s["intensity"]
         lines += ["", f"proportion correct {f(m['proportion_correct'])}  HSS {f(m['hss'])}  PSS {f(m['pss'])}  "
                   f"Gerrity {f(m['gerrity'])}"]
+        if m["n"] and m["gerrity"] != m["gerrity"]:
+            lines.append("(Gerrity n/a: a class at an end of the scale was never reported)")
         for name, rel in self.reliability.items():
             lines += ["", f"Reliability of {name} (Brier {f(rel.attrs['brier'])})",
                       f"{'bin':>12}{'count':>8}{'forecast':>10}{'observed':>10}"]
@@ -112,7 +158,7 @@ def _reports_frame(reports):
     need = ("latitude", "longitude", "time", "flight_level", "icing", "intensity")
     missing = [c for c in need if c not in frame.columns]
     if missing:
-        raise ValueError(f"reports lack the columns {', '.join(missing)} (read them with icing.verify.read_pireps)")
+        raise ConfigError(f"reports lack the columns {', '.join(missing)} (read them with icing.verify.read_pireps)")
     return frame
 
 
@@ -183,7 +229,7 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
     from icing.physics import thermo
 
     if not (isinstance(max_minutes, int | float) and np.isfinite(max_minutes) and max_minutes >= 0):
-        raise ValueError(f"max_minutes must be a number of minutes >= 0, not {max_minutes!r}")
+        raise ConfigError(f"max_minutes must be a number of minutes >= 0, not {max_minutes!r}")
     ac = get_aircraft("turboprop" if aircraft is None else aircraft)
     frame = _reports_frame(reports)
     n = len(frame)
