@@ -12,17 +12,33 @@ import pytest
 from numpy.testing import assert_allclose
 from pyproj import Geod
 
+import icing.flight.route as route_module
 from icing.errors import RouteFormatError
 from icing.flight.aircraft import Aircraft
 from icing.flight.item15 import (
+    DEFAULT_ALTITUDE_LIMITS_FT,
+    DEFAULT_SPEED_LIMITS_KT,
     WaypointTable,
     format_item15,
-    parse_item15,
+    read_item15,
     read_waypoints,
     sniff_item15,
     speed_level_group,
 )
-from icing.flight.route import Route, trajectory
+from icing.flight.route import ALTITUDE_LIMITS_FT, SPEED_LIMITS_KT, Route, Waypoint, trajectory
+
+
+def _as_route(text, waypoints=None, *, departure=None, source="<string>", name=""):
+    """The Route of an Item 15 text, as icing.flight.route.parse_item15 makes it (this stands in until that is
+    wired in; the tests then run through it)."""
+    filed = read_item15(text, waypoints, source=source, altitude_limits_ft=ALTITUDE_LIMITS_FT,
+                        speed_limits_kt=SPEED_LIMITS_KT)
+    wps = [Waypoint(p.name, p.latitude, p.longitude, p.altitude_ft, p.flight_level, p.speed_kt)
+           for p in filed.points]
+    return Route(wps, departure=departure, name=name, source=source, notes=filed.notes)
+
+
+parse_item15 = getattr(route_module, "parse_item15", _as_route)
 
 DEP = "2026-01-15T05:00Z"
 # Invented points of an invented region.
@@ -271,6 +287,16 @@ def test_cruise_climb_is_refused(token):
     assert "cruise climb" in e.reason and e.column == 21
 
 
+def test_limits_are_those_of_routes():
+    assert DEFAULT_ALTITUDE_LIMITS_FT == ALTITUDE_LIMITS_FT and DEFAULT_SPEED_LIMITS_KT == SPEED_LIMITS_KT
+
+
+def test_points_know_where_their_tokens_stand():
+    filed = read_item15("N0250F140 ALDRN\n DCT BRIXO/N0300F150 DCT 48N029W", TABLE)
+    assert [(p.name, p.line, p.column) for p in filed.points] == [("ALDRN", 1, 11), ("BRIXO", 2, 6),
+                                                                  ("48N029W", 2, 26)]
+
+
 def test_departure_is_needed():
     e = error("N0250F140 ALDRN DCT BRIXO", departure=None)
     assert "departure" in e.reason
@@ -388,3 +414,25 @@ def test_speed_level_group_levels():
     assert speed_level_group(250.6, 4500.0, False) == "N0251A045"
     assert speed_level_group(480.0, 11300.0 / 0.3048, True) == "N0480S1130"
     assert speed_level_group(200.0, 8400.0 / 0.3048, False) == "N0200M0840"
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# read_route (runs once icing.flight.route.parse_item15 is wired in)
+
+@pytest.mark.skipif(not hasattr(route_module, "parse_item15"), reason="read_route does not read Item 15 yet")
+def test_read_route_reads_an_item15_file(tmp_path):
+    """A text file whose first group is a speed and level (Doc 4444 App. 2 Item 15 (a), (b)) is read as Item 15,
+    with named points from a CSV; errors name the file, line and column."""
+    pts = tmp_path / "points.csv"
+    pts.write_text("name,latitude,longitude\n" + "".join(f"{k},{v[0]},{v[1]}\n" for k, v in TABLE.items()))
+    plan = tmp_path / "plan.txt"
+    plan.write_text("# filed\nN0250F140 ALDRN DCT BRIXO/N0280F180\n DCT 49N029W\n")
+    r = route_module.read_route(plan, departure=DEP, waypoints=pts)
+    assert [w.name for w in r.waypoints] == ["ALDRN", "BRIXO", "49N029W"]
+    assert r.source == str(plan) and r.name == "plan"
+    same_route(r, parse(plan.read_text()))
+    plan.write_text("N0250F140 ALDRN UL975 BRIXO\n")
+    with pytest.raises(RouteFormatError) as info:
+        route_module.read_route(plan, departure=DEP, waypoints=pts)
+    assert (info.value.file, info.value.line, info.value.column) == (str(plan), 1, 17)
+    assert "airway UL975 is not supported" in info.value.reason

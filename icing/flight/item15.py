@@ -24,7 +24,7 @@ plan form", Item 15 (written from memory of the document; the paragraph letters 
 
 What this reader does with them (our choices):
 
-* every point becomes a :class:`~icing.flight.route.Waypoint` named by its text (a coordinate group keeps its
+* every point becomes a :class:`FiledPoint` (a route waypoint) named by its text (a coordinate group keeps its
   text as its name); altitudes come from the levels (``F`` and ``S`` are pressure altitudes, ``flight_level``
   true; ``A`` and ``M`` are altitudes above mean sea level);
 * a change at a point is planned to *commence* there: the leg after the point flies the new speed (the point's
@@ -52,14 +52,21 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+from pyproj import Geod
 
 from icing.errors import RouteFormatError
-from icing.flight.route import ALTITUDE_LIMITS_FT, GEOD, SPEED_LIMITS_KT, Route, Waypoint
 from icing.physics.thermo import speed_of_sound, standard_atmosphere_temperature
 from icing.units import FT, KT, NMI
 
-__all__ = ["parse_item15", "format_item15", "sniff_item15", "read_waypoints", "WaypointTable",
-           "speed_level_group"]
+__all__ = ["read_item15", "format_item15", "sniff_item15", "read_waypoints", "WaypointTable", "FiledPoint",
+           "FiledRoute", "speed_level_group", "DEFAULT_ALTITUDE_LIMITS_FT", "DEFAULT_SPEED_LIMITS_KT"]
+
+# This module sits below icing.flight.route (read_route calls it), so it builds plain points, not Routes, and
+# keeps its own handle on the same ellipsoid.
+_GEOD = Geod(ellps="WGS84")
+# The limits of icing.flight.route (ALTITUDE_LIMITS_FT, SPEED_LIMITS_KT), which read_route passes in.
+DEFAULT_ALTITUDE_LIMITS_FT = (-2000.0, 60000.0)
+DEFAULT_SPEED_LIMITS_KT = (40.0, 700.0)
 
 # 15 (a) and (b): speed and level, one group without a space (Doc 4444 App. 2, Item 15 (a), (b); from memory).
 _SPEED = r"(?P<speed>N[0-9]{4}|M[0-9]{3}|K[0-9]{4})"
@@ -292,7 +299,7 @@ class _Level:
     flight_level: bool
 
 
-def _speed_level(tok: _Token, text: str, src, column_offset=0) -> _Level:
+def _speed_level(tok: _Token, text: str, src, limits, column_offset=0) -> _Level:
     col = tok.column + column_offset
     m = _SPEED_LEVEL.fullmatch(text)
     if not m:
@@ -303,12 +310,12 @@ def _speed_level(tok: _Token, text: str, src, column_offset=0) -> _Level:
         raise RouteFormatError(f"{text}: a VFR cruising level gives no altitude to screen at: give a level such as "
                                f"{m['speed']}A045", file=src, line=tok.line, column=col)
     alt, fl = _level_ft(m["level"])
-    lo, hi = ALTITUDE_LIMITS_FT
+    lo, hi = limits[0]
     if not lo <= alt <= hi:
         raise RouteFormatError(f"{text}: level {m['level']} is {alt:.0f} ft, outside {lo:.0f}..{hi:.0f} ft",
                                file=src, line=tok.line, column=col + len(m["speed"]))
     spd = _speed_kt(m["speed"], alt)
-    lo, hi = SPEED_LIMITS_KT
+    lo, hi = limits[1]
     if not lo <= spd <= hi:
         raise RouteFormatError(f"{text}: speed {m['speed']} is {spd:.0f} kt, outside {lo:.0f}..{hi:.0f} kt",
                                file=src, line=tok.line, column=col)
@@ -395,7 +402,7 @@ def _point(tok: _Token, text: str, table: WaypointTable, src, notes: list[str]) 
             notes.append(f"{text}: bearing {brg:03d} taken as true: no magnetic variation for {ref} in the waypoint "
                          "table (the point moves sideways by the distance times the variation in radians)")
             var = 0.0
-        lon, lat, _ = GEOD.fwd(lon0, lat0, (brg + var) % 360.0, dist * NMI)
+        lon, lat, _ = _GEOD.fwd(lon0, lat0, (brg + var) % 360.0, dist * NMI)
         return _Point(text, float(lat), float(lon), "bearing")
     if _CODED.fullmatch(text):
         raise RouteFormatError(f"point {text} is not in the waypoint table (--waypoints)", **where)
@@ -412,29 +419,61 @@ def _point(tok: _Token, text: str, table: WaypointTable, src, notes: list[str]) 
 # ----------------------------------------------------------------------------------------------------------------
 # Parsing
 
-def parse_item15(text: str, waypoints=None, *, departure=None, source: str = "<string>", name: str = "") -> Route:
-    """Read an ICAO flight-plan route (Item 15) into a :class:`~icing.flight.route.Route`.
+@dataclass(frozen=True)
+class FiledPoint:
+    """A point of a filed route: its name (the token's point text), position (deg), the level at the point (ft,
+    a pressure altitude when ``flight_level``), the true airspeed of the leg after it (kt), and where its token
+    stands in the text (1-based line and column). The first six fields are those of
+    :class:`icing.flight.route.Waypoint`, in its order."""
+
+    name: str
+    latitude: float
+    longitude: float
+    altitude_ft: float
+    flight_level: bool
+    speed_kt: float
+    line: int
+    column: int
+
+
+@dataclass
+class FiledRoute:
+    """The points of an Item 15 route, in order, and what the reader noted (flight-rule changes, bearings taken
+    as true, a change at the last point, columns of the waypoint table ignored)."""
+
+    points: list[FiledPoint]
+    notes: list[str]
+    source: str
+
+
+def read_item15(text: str, waypoints=None, *, source: str = "<string>",
+                altitude_limits_ft=DEFAULT_ALTITUDE_LIMITS_FT,
+                speed_limits_kt=DEFAULT_SPEED_LIMITS_KT) -> FiledRoute:
+    """Read an ICAO flight-plan route (Item 15) into its points.
+
+    :func:`icing.flight.route.parse_item15` and :func:`icing.flight.route.read_route` make a
+    :class:`~icing.flight.route.Route` of them (Item 15 carries no time: the departure is given there).
 
     Parameters
     ----------
     text : str
         The route: its first group the speed and level (``N0250F140``), then points, ``DCT``, changes of speed
         and level (``ALDRN/N0280F160``), ``VFR``/``IFR``; over one or more lines; lines starting with ``#`` are
-        comments. Letters of either case.
+        comments; letters of either case; a leading ``-`` (the field separator of an ICAO message) is skipped.
     waypoints : mapping, WaypointTable or path, optional
-        Named points: ``{name: (lat, lon)}``, or a CSV read by :func:`read_waypoints`.
-    departure : str or time
-        The departure time (ISO 8601, UTC unless it says otherwise). Item 15 carries no time, so it is needed.
+        Named points: ``{name: (lat, lon)}``, a :class:`WaypointTable`, or a CSV read by
+        :func:`read_waypoints`.
     source : str
         The name errors give as the file.
-    name : str
-        The route's name.
+    altitude_limits_ft, speed_limits_kt : (low, high)
+        Levels and speeds outside are refused at their token.
 
     Raises
     ------
     RouteFormatError
         For a token that breaks the rules, naming the source, line, column and reason.
     """
+    limits = (altitude_limits_ft, speed_limits_kt)
     src = source
     table = _table(waypoints)
     notes = list(table.notes)
@@ -444,7 +483,7 @@ def parse_item15(text: str, waypoints=None, *, departure=None, source: str = "<s
                                file=src, line=1)
     if toks[0].text.startswith("-") and len(toks[0].text) > 1:  # the field separator of an ICAO message
         toks[0] = _Token(toks[0].text[1:], toks[0].line, toks[0].column + 1)
-    level = _speed_level(toks[0], toks[0].text, src)
+    level = _speed_level(toks[0], toks[0].text, src, limits)
     # Each point with the speed in force after it and the level at it, and its token.
     pts: list[tuple[_Point, _Level, _Token]] = []
     prev, prev_kind = toks[0].text, "start"  # the last element: "start", "point", "rules", "dct", "airway"
@@ -479,7 +518,7 @@ def parse_item15(text: str, waypoints=None, *, departure=None, source: str = "<s
             ptext, _, group = t.partition("/")
             if not ptext:
                 raise RouteFormatError(f"{t}: a change of speed and level needs its point before the '/'", **where)
-            new_level = _speed_level(tok, group, src, column_offset=len(ptext) + 1)
+            new_level = _speed_level(tok, group, src, limits, column_offset=len(ptext) + 1)
         p = _point(tok, ptext, table, src, notes)
         if prev_kind in ("point", "rules") and (pts[-1][0].kind == "coded" or p.kind == "coded"):
             raise RouteFormatError(f"{pts[-1][0].name} {p.name}: put DCT (or an airway) between two points unless "
@@ -505,16 +544,12 @@ def parse_item15(text: str, waypoints=None, *, departure=None, source: str = "<s
                                "least two", file=src, line=last.line, column=last.column)
     if (level.altitude_ft, level.flight_level) != (pts[-1][1].altitude_ft, pts[-1][1].flight_level):
         notes.append(f"the change of level at the last point {pts[-1][0].name} is not flown: the route ends there")
-    if departure is None:
-        raise RouteFormatError("an Item 15 route carries no time: give a departure (departure=, on the command "
-                               "line --departure 2026-01-15T05:00Z)", file=src)
-    wps = [Waypoint(p.name, p.latitude, p.longitude, lv.altitude_ft, lv.flight_level, lv.speed_kt)
-           for p, lv, _ in pts]
-    return Route(wps, departure=departure, name=name, source=src, notes=notes)
+    return FiledRoute([FiledPoint(p.name, p.latitude, p.longitude, lv.altitude_ft, lv.flight_level, lv.speed_kt,
+                                  tok.line, tok.column) for p, lv, tok in pts], notes, src)
 
 
 def _check_leg(a: _Point, b: _Point, tok: _Token, src):
-    _, _, d = GEOD.inv(a.longitude, a.latitude, b.longitude, b.latitude)
+    _, _, d = _GEOD.inv(a.longitude, a.latitude, b.longitude, b.latitude)
     if not d >= 1.0:
         raise RouteFormatError(f"{b.name} is at the same position as {a.name}: a leg needs a length", file=src,
                                line=tok.line, column=tok.column)
@@ -546,7 +581,7 @@ def _coordinate_text(lat: float, lon: float) -> str:
     return f"{la // 60:02d}{la % 60:02d}{'S' if lat < 0 else 'N'}{lo // 60:03d}{lo % 60:02d}{'W' if lon < 0 else 'E'}"
 
 
-def _point_text(w: Waypoint, names: bool) -> tuple[str, str]:
+def _point_text(w, names: bool) -> tuple[str, str]:
     """(text, kind) of a waypoint: its name when that is a point of Item 15, else its coordinates."""
     name = str(w.name).strip().upper()
     pos = _coordinates(name)
@@ -562,7 +597,7 @@ def _point_text(w: Waypoint, names: bool) -> tuple[str, str]:
     return _coordinate_text(w.latitude, w.longitude), "coordinates"
 
 
-def format_item15(route: Route, *, speed_kt: float | None = None, names: bool = True) -> str:
+def format_item15(route, *, speed_kt: float | None = None, names: bool = True) -> str:
     """Write a route as Item 15 text, the inverse of :func:`parse_item15`.
 
     Named waypoints are written by name (parse the text again with the same waypoint table); a coordinate
@@ -575,7 +610,9 @@ def format_item15(route: Route, *, speed_kt: float | None = None, names: bool = 
 
     Parameters
     ----------
-    route : Route
+    route : icing.flight.route.Route, FiledRoute, or a list of waypoints
+        Anything with ``waypoints`` (or ``points``), or the list itself, of objects with ``name``, ``latitude``,
+        ``longitude``, ``altitude_ft``, ``flight_level`` and ``speed_kt``.
     speed_kt : float, optional
         The speed of waypoints without one (routes read from files without speeds).
     names : bool
@@ -586,7 +623,9 @@ def format_item15(route: Route, *, speed_kt: float | None = None, names: bool = 
     RouteFormatError
         If a waypoint but the last has no speed, or an altitude is not a whole level.
     """
-    wps = route.waypoints
+    wps = list(getattr(route, "waypoints", getattr(route, "points", route)))
+    if len(wps) < 2:
+        raise RouteFormatError("a route needs at least two waypoints", file=getattr(route, "source", None) or None)
 
     def speed(w):
         return w.speed_kt if w.speed_kt is not None else speed_kt
@@ -614,5 +653,5 @@ def format_item15(route: Route, *, speed_kt: float | None = None, names: bool = 
             prev_kind = kind
     except RouteFormatError as exc:
         raise RouteFormatError(f"waypoint {i + 1} ({wps[i].name}): {exc.reason}",
-                               file=route.source or None) from None
+                               file=getattr(route, "source", None) or None) from None
     return " ".join(out)

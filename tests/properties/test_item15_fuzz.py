@@ -11,10 +11,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
+import icing.flight.route as route_module
 from icing.errors import RouteFormatError
 from icing.flight.aircraft import Aircraft
-from icing.flight.item15 import WaypointTable, format_item15, parse_item15
-from icing.flight.route import Route, plan_geometry, timed_arrays
+from icing.flight.item15 import WaypointTable, format_item15, read_item15
+from icing.flight.route import ALTITUDE_LIMITS_FT, SPEED_LIMITS_KT, Route, Waypoint, plan_geometry, timed_arrays
 
 PLANE = Aircraft(tas_climb_kt=160.0, tas_cruise_kt=240.0, tas_descent_kt=220.0, climb_rate_fpm=1000.0,
                  descent_rate_fpm=1500.0, body_diameter_m=0.05, name="fuzz", description="constant true airspeeds")
@@ -22,6 +23,18 @@ TABLE = WaypointTable({"ALDRN": (47.25, -31.5), "BRIXO": (48.0, -30.0), "CORVU":
                        "DAVLE": (50.75, -27.0), "EP": (-12.5, 179.5), "WP1": (60.0, 10.0)},
                       variation={"BRIXO": 8.5},
                       airways={"QX12": ["ALDRN", "BRIXO", "CORVU", "DAVLE"]})
+
+
+def _as_route(text, waypoints, *, departure, source):
+    """As icing.flight.route.parse_item15 (which runs instead once wired in)."""
+    filed = read_item15(text, waypoints, source=source, altitude_limits_ft=ALTITUDE_LIMITS_FT,
+                        speed_limits_kt=SPEED_LIMITS_KT)
+    wps = [Waypoint(p.name, p.latitude, p.longitude, p.altitude_ft, p.flight_level, p.speed_kt)
+           for p in filed.points]
+    return Route(wps, departure=departure, source=source, notes=filed.notes)
+
+
+parse_item15 = getattr(route_module, "parse_item15", _as_route)
 SETTINGS = settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 SOURCE = "fuzz-route.txt"
 
