@@ -101,6 +101,8 @@ class WaypointTable:
         ATS route designator -> the names of its points in order.
     source : str
         The file read (or ``"<mapping>"``).
+    notes : list of str
+        Columns of the file that were ignored.
     """
 
     points: dict[str, tuple[float, float]]
