@@ -146,7 +146,8 @@ class Verification:
                 lines.append(f"{r['lower']:>5.1f}-{r['upper']:<6.1f}{int(r['count']):>8d}"
                              f"{f(r['mean_probability']):>10}{f(r['observed_frequency']):>10}")
         for sk in self.skipped:
-            lines.append(f"skipped: line {sk.get('line')}: {sk.get('reason')}")
+            where = ", ".join(x for x in (sk.get("file"), f"line {sk.get('line')}") if x)
+            lines.append(f"skipped: {where}: {sk.get('reason')}")
         lines += [*self.notes, "", self.caution]
         return "\n".join(lines)
 
