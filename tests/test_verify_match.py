@@ -143,3 +143,13 @@ def test_files_written(source, tmp_path):
     assert d["scores"]["hits"] == 1 and "ADVISORY ONLY" in d["caution"]
     assert d["scores"]["intensity"]["gerrity"] is None or np.isfinite(d["scores"]["intensity"]["gerrity"])
     assert paths[2].stat().st_size > 0
+
+
+def test_level_from_the_icing_layer_when_the_flight_level_is_unknown(source):
+    """/FL DURD with /IC LGT RIME 070-090: the report sits at the layer's middle, FL080, inside the supercooled
+    layer (a hit), and the reason says where its level came from."""
+    res = verify_reports(parse_pireps("UA /OV 5000N02000W/TM 0600/FL DURD/TP XX10/IC LGT RIME 070-090\n", DATE),
+                         source)
+    m = res.matches.iloc[0]
+    assert m["flight_level"] == 80.0 and m["counted"] and res.table.a == 1
+    assert "icing layer" in m["reason"]

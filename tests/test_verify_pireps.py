@@ -160,3 +160,16 @@ def test_bad_waypoint_tables(tmp_path, content, words, line):
     with pytest.raises(PirepFormatError, match=words) as err:
         read_waypoints(p)
     assert err.value.line == line and err.value.file == str(p)
+
+
+def test_sky_layers_with_slashes_and_an_icing_layer():
+    """Written after the layout of the format's examples (our own fixes and values): no space after UA, sky layers
+    separated by '/' inside /SK (/OVC072 is no /OV field), a one-digit /TA, wind and turbulence groups, an icing
+    layer 072-089 (7,200 to 8,900 ft) in /IC."""
+    r = parse_pirep("UA/OV QXV 180020/TM 1800/FL120/TP XX90/SK BKN018-TOP055/OVC072-TOP089/CLR ABV/TA M7/WV 08021"
+                    "/TB LGT 055-072/IC LGT-MOD RIME 072-089", date="2026-01-15", waypoints=FIXES)
+    assert r["sky"] == "BKN018-TOP055/OVC072-TOP089/CLR ABV"
+    assert r["temperature_c"] == -7.0 and r["flight_level"] == 120.0
+    assert (r["icing_base_fl"], r["icing_top_fl"]) == (72.0, 89.0)
+    assert r["intensity"] == "moderate" and r["ice_type"] == "rime"
+    assert r["latitude"] < 50.0 and abs(r["longitude"] + 20.0) < 1e-6  # 20 NM due south of QXV

@@ -204,7 +204,9 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
     ----------
     reports : DataFrame or list of dicts
         Pilot reports as read by :func:`icing.verify.pireps.read_pireps` (``latitude``, ``longitude``, ``time``
-        (UTC), ``flight_level``, ``icing`` (True, False for ``/IC NEG``, missing without ``/IC``), ``intensity``).
+        (UTC), ``flight_level``, ``icing`` (True, False for ``/IC NEG``, missing without ``/IC``), ``intensity``;
+        optional ``icing_base_fl``/``icing_top_fl``: where the flight level is unknown, the middle of that layer
+        is the report's level).
     source : atmosphere source
         Anything with ``sample(latitude, longitude, time, pressure=..., height=...)`` (a sounding or model
         source); build one with :func:`icing.flight.assess.atmosphere_source`.
@@ -238,6 +240,13 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
     lon = pd.to_numeric(frame["longitude"], errors="coerce").to_numpy(dtype=float)
     times = pd.to_datetime(frame["time"], utc=True)
     fl = pd.to_numeric(frame["flight_level"], errors="coerce").to_numpy(dtype=float)
+    # Without a flight level (UNKN, DURC, DURD) the icing layer of /IC, where given, places the report: its middle.
+    from_layer = np.zeros(n, dtype=bool)
+    if "icing_base_fl" in frame and "icing_top_fl" in frame:
+        mid = (pd.to_numeric(frame["icing_base_fl"], errors="coerce").to_numpy(dtype=float)
+               + pd.to_numeric(frame["icing_top_fl"], errors="coerce").to_numpy(dtype=float)) / 2.0
+        from_layer = ~np.isfinite(fl) & np.isfinite(mid)
+        fl = np.where(from_layer, mid, fl)
     observed = [None if (v is None or v is pd.NA or v != v) else bool(v) for v in frame["icing"]]
     obs_int = [None if (v is None or v is pd.NA or v != v) else str(v) for v in frame["intensity"]]
 
@@ -288,6 +297,8 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
             reason[i] = f"nearest data {atm['age_h'][i] * 60:.0f} min from the report (more than {max_minutes:g})"
         elif data[i] == "partial" and forecast[i] is None:
             reason[i] = "partial data without supercooled liquid: no icing cannot be told"
+    for i in np.flatnonzero(from_layer & usable):
+        reason[i] = "; ".join(x for x in (reason[i], "level: the middle of the icing layer in /IC") if x)
     counted = np.array([forecast[i] is not None and observed[i] is not None and usable[i] for i in range(n)])
 
     code = _forecast_intensity(atm, icing_here & (data != "stale"), np.nan_to_num(fl) * 100.0, ac)

@@ -21,7 +21,8 @@ memory)::
 * ``/IC``: intensity ``NEG``, ``TRACE`` (``TRC``), ``LGT``, ``MOD``, ``SEV`` (``HVY``, an older word, read as
   severe), a range such as ``LGT-MOD`` (``intensity`` is the higher word, ``intensity_low`` the lower: a range
   cannot be ruled out at its upper end), and the type ``RIME``, ``CLR`` (clear ice, our ``glaze``), ``MXD``
-  (mixed). ``NEGclr`` (no icing, in clear air) is a null report. A null report (``NEG``) is observed no icing.
+  (mixed); a layer ``fff-fff`` (e.g. ``LGT RIME 060-080``) gives ``icing_base_fl`` and ``icing_top_fl``.
+  ``NEGclr`` (no icing, in clear air) is a null report. A null report (``NEG``) is observed no icing.
 * ``/SK``, ``/WX``, ``/WV``, ``/TB`` are kept as text; ``/RM`` is the rest of the report, as text.
 
 Reports are one per line, or separated by ``=`` (as in a bulletin). A report that cannot be read raises
@@ -39,8 +40,8 @@ import numpy as np
 
 from icing.errors import LocatedError
 
-__all__ = ["PirepFormatError", "parse_pirep", "parse_pireps", "read_pireps", "read_waypoints", "INTENSITY_ORDER",
-           "REPORT_COLUMNS"]
+__all__ = ["PirepFormatError", "parse_pirep", "parse_pireps", "read_pireps", "read_waypoints", "icing_layer",
+           "INTENSITY_ORDER", "REPORT_COLUMNS"]
 
 INTENSITY_ORDER = ("none", "trace", "light", "moderate", "severe")
 _INTENSITY_WORDS = {"NEG": "none", "NEGCLR": "none", "NONE": "none", "TRACE": "trace", "TRC": "trace",
@@ -59,7 +60,7 @@ NM = 1852.0  # m per nautical mile (exact, by definition)
 
 REPORT_COLUMNS = ["file", "line", "kind", "station", "location", "latitude", "longitude", "time", "flight_level",
                   "altitude_ft", "aircraft_type", "sky", "temperature_c", "icing", "intensity", "intensity_low",
-                  "ice_type", "icing_text", "remarks", "text"]
+                  "ice_type", "icing_base_fl", "icing_top_fl", "icing_text", "remarks", "text"]
 
 
 class PirepFormatError(LocatedError, ValueError):
@@ -176,6 +177,16 @@ def _temperature(value):
     return -t if m[1] in ("M", "-") else t
 
 
+def icing_layer(value):
+    """(base, top) flight levels of an icing layer written in /IC as ``fff-fff`` (hundreds of feet), NaN if
+    none."""
+    m = re.search(r"(?<![0-9])([0-9]{3})-([0-9]{3})(?![0-9])", str(value))
+    if not m:
+        return np.nan, np.nan
+    lo, hi = sorted((float(m[1]), float(m[2])))
+    return lo, hi
+
+
 def _icing(value):
     """(icing observed: bool, intensity, lower intensity, ice type) from the /IC text."""
     v = value.strip().upper()
@@ -271,8 +282,10 @@ def parse_pirep(text, date=None, waypoints=None, *, file=None, line=None, magnet
         temp = _temperature(fields["TA"]) if fields.get("TA") else np.nan
         if "IC" in fields:
             icing, intensity, low, kind = _icing(fields["IC"])
+            layer = icing_layer(fields["IC"])
         else:
             icing, intensity, low, kind = None, None, None, None
+            layer = (np.nan, np.nan)
     except ValueError as exc:
         raise PirepFormatError(str(exc), file=file, line=line) from None
     return {"file": None if file is None else str(file), "line": line, "kind": m["kind"].upper(),
@@ -280,7 +293,8 @@ def parse_pirep(text, date=None, waypoints=None, *, file=None, line=None, magnet
             "location": " ".join(fields["OV"].split()).upper(), "latitude": float(lat), "longitude": float(lon),
             "time": time, "flight_level": fl, "altitude_ft": fl * 100.0, "aircraft_type": fields["TP"],
             "sky": fields.get("SK"), "temperature_c": temp, "icing": icing, "intensity": intensity,
-            "intensity_low": low, "ice_type": kind, "icing_text": fields.get("IC"), "remarks": fields.get("RM"),
+            "intensity_low": low, "ice_type": kind, "icing_base_fl": layer[0], "icing_top_fl": layer[1],
+            "icing_text": fields.get("IC"), "remarks": fields.get("RM"),
             "text": raw}
 
 
