@@ -208,7 +208,11 @@ def build_parser() -> argparse.ArgumentParser:
               "Screen a planned route: per segment, the minutes in supercooled liquid, the ice accreted on the "
               "aircraft's reference body, intensity, ice type, large drops and whether the data were complete.")
     sp.add_argument("route", help="route CSV (name,latitude,longitude,altitude[,speed_kt][,time]; altitude in ft "
-                    "or as FL140) or GeoJSON LineString; e.g. route.csv")
+                    "or as FL140), GeoJSON LineString, or a text file of an ICAO route (Item 15, e.g. N0250F140 "
+                    "ALDRN DCT 5130N00010W; named points from --waypoints, time from --departure); e.g. route.csv")
+    sp.add_argument("--waypoints", metavar="CSV", help="named points of an ICAO route (a text file of Item 15: "
+                    "N0250F140 ALDRN DCT 5130N00010W ...): CSV name,latitude,longitude[,variation][,airway]; "
+                    "e.g. --waypoints points.csv")
     what = sp.add_mutually_exclusive_group(required=True)
     what.add_argument("--soundings", nargs="+", metavar="FILE_OR_DIR", help="sounding files or directories "
                       "(CSV, netCDF, TEMP, IGRA, BUFR); e.g. --soundings sample_soundings/")
@@ -271,6 +275,10 @@ def _screen(args, route, soundings):
                                        reference_time=args.reference_time, units=_units_option(args.units))
         progress.step("screening the route")
         try:
+            if getattr(args, "waypoints", None):
+                from icing.flight.route import read_route
+
+                route = read_route(route, departure=args.departure, waypoints=args.waypoints)
             result = assess_route(route, source, ac, step_s=args.step, departure=args.departure,
                                   min_altitude_ft=getattr(args, "min_altitude", 2000.0))
         except IcingError as exc:

@@ -18,9 +18,11 @@ from pint.errors import PintError
 from pyproj import Geod
 
 from icing.errors import RouteFormatError, UnitError
+from icing.flight.item15 import read_item15, sniff_item15
 from icing.units import FT, KT, parse_altitude, parse_speed
 
-__all__ = ["Waypoint", "Route", "read_route", "trajectory", "plan_geometry", "wind_points", "timed_samples",
+__all__ = ["Waypoint", "Route", "read_route", "parse_item15", "trajectory", "plan_geometry", "wind_points",
+           "timed_samples",
            "timed_arrays", "GEOD",
            "DEFAULT_TRANSITION_FT"]
 
@@ -195,7 +197,27 @@ def _same_place(a: Waypoint, b: Waypoint) -> bool:
     return not d >= 1.0  # under a metre (or not a number)
 
 
-def read_route(path, departure=None) -> Route:
+def parse_item15(text, waypoints=None, *, departure=None, source="<string>", name="") -> Route:
+    """A route from ICAO flight-plan Item 15 text (``N0250F140 ALDRN DCT 5130N00010W ...``) and a table of named
+    points (``{name: (lat, lon)}`` or a CSV ``name,latitude,longitude``); see :mod:`icing.flight.item15` for the
+    rules. Item 15 carries no time, so ``departure`` is needed.
+
+    Raises
+    ------
+    RouteFormatError
+        Naming ``source``, the line and column of the token and the reason.
+    """
+    filed = read_item15(text, waypoints, source=source, altitude_limits_ft=ALTITUDE_LIMITS_FT,
+                        speed_limits_kt=SPEED_LIMITS_KT)
+    if departure is None:
+        raise RouteFormatError("an ICAO route (Item 15) carries no time: give the departure (on the command line "
+                               "--departure, e.g. --departure 2026-01-15T05:00Z)", file=source)
+    wps = [Waypoint(p.name, p.latitude, p.longitude, p.altitude_ft, p.flight_level, p.speed_kt)
+           for p in filed.points]
+    return Route(wps, departure=departure, name=name, source=source, notes=filed.notes)
+
+
+def read_route(path, departure=None, waypoints=None) -> Route:
     """Read a route from a CSV of waypoints or a GeoJSON LineString with Z.
 
     CSV header: ``name,latitude,longitude,altitude`` and optional ``speed_kt`` and ``time`` columns (any order,
@@ -215,11 +237,16 @@ def read_route(path, departure=None) -> Route:
     timed legs keep their durations; the route's ``notes`` say so. Without it the file's own first time is the
     departure, and a file without one is refused.
 
+    ICAO flight-plan route (Item 15 of ICAO Doc 4444 Appendix 2): a text file whose first group is the speed and
+    level (``N0250F140 ALDRN DCT 5130N00010W ...``), read by :func:`parse_item15`; ``waypoints`` (a CSV
+    ``name,latitude,longitude`` or a mapping name -> (lat, lon)) gives the named points, and ``departure`` is
+    needed (Item 15 carries no time).
+
     Raises
     ------
     RouteFormatError
-        For anything that cannot be read, naming the file, the line (CSV) or the feature and coordinate
-        (GeoJSON), and the reason.
+        For anything that cannot be read, naming the file, the line (CSV, Item 15: and column) or the feature and
+        coordinate (GeoJSON), and the reason.
     """
     path = Path(path)
     if not path.exists():
@@ -240,6 +267,8 @@ def read_route(path, departure=None) -> Route:
         departure = _checked_time(departure, None, None, "departure")
     if text.lstrip().startswith(("{", "[")):
         return _read_geojson(text, path, departure)
+    if sniff_item15(text):
+        return parse_item15(text, waypoints, departure=departure, source=str(path), name=path.stem)
     return _read_csv(text, path, departure)
 
 
