@@ -15,7 +15,7 @@ from numpy.testing import assert_allclose
 from pyproj import Geod
 
 from icing.errors import IcingError
-from icing.verify.pireps import PirepFormatError, parse_pirep, parse_pireps, read_pireps, read_waypoints
+from icing.verify.pireps import PirepFormatError, parse_pirep, parse_pireps, read_pireps
 
 FIXES = {"QXV": (50.0, -20.0), "ZUPRO": (-33.5, 151.25)}  # invented fixes
 
@@ -147,19 +147,38 @@ def test_read_from_files_with_a_waypoint_table(tmp_path):
     assert frame["time"].iloc[1] == pd.Timestamp("2026-01-15T06:10Z")
 
 
-@pytest.mark.parametrize(("content", "words", "line"), [
-    ("QXV,50,-20\nQXV,51,-20\n", "twice", 2),
-    ("QXV,50\n", "fields", 1),
-    ("QXV,95,-20\n", "out of range", 1),
-    ("QXV,abc,-20\n", "numbers", 1),
-    ("TOO-LONG-NAME,50,-20\n", "fix name", 1),
+@pytest.mark.parametrize(("content", "line"), [
+    ("name,latitude,longitude\nQXV,50,-20\nQXV,51,-20\n", 3),  # one name at two places
+    ("QXV,50,-20\n", 1),  # no header
+    ("name,latitude,longitude\nQXV,95,-20\n", 2),
+    ("name,latitude,longitude\nQXV,abc,-20\n", 2),
 ])
-def test_bad_waypoint_tables(tmp_path, content, words, line):
+def test_bad_waypoint_tables(tmp_path, content, line):
+    """The waypoint table is the project's one (icing.flight.item15): its typed errors name the file and line."""
     p = tmp_path / "wp.csv"
     p.write_text(content)
-    with pytest.raises(PirepFormatError, match=words) as err:
-        read_waypoints(p)
+    with pytest.raises(IcingError) as err:
+        read_pireps(_reports(tmp_path), date="2026-01-15", waypoints=p)
     assert err.value.line == line and err.value.file == str(p)
+
+
+def _reports(tmp_path):
+    rp = tmp_path / "reports.txt"
+    rp.write_text("UA /OV QXV/TM 0600/FL080/TP XX10/IC LGT\n")
+    return rp
+
+
+def test_variation_from_the_waypoint_table(tmp_path):
+    """A fix's variation in the table (10 degrees east) turns 350 magnetic to 360 true: due north of the fix;
+    without a variation the bearing is taken as true and the report's notes say so."""
+    wp = tmp_path / "fixes.csv"
+    wp.write_text("name,latitude,longitude,variation\nQXV,50.0,-20.0,10\nZUPRO,-33.5,151.25,\n")
+    rp = tmp_path / "reports.txt"
+    rp.write_text("UA /OV QXV350010/TM 0600/FL080/TP XX10/IC NEG\nUA /OV ZUPRO350010/TM 0600/FL080/TP XX10/IC NEG\n")
+    frame = read_pireps(rp, date="2026-01-15", waypoints=wp)
+    assert_allclose(frame["longitude"].iloc[0], -20.0, atol=1e-9)
+    assert frame["latitude"].iloc[0] > 50.0 and frame["notes"].iloc[0] == ""
+    assert "taken as true" in frame["notes"].iloc[1] and frame["longitude"].iloc[1] < 151.25
 
 
 def test_sky_layers_with_slashes_and_an_icing_layer():

@@ -12,8 +12,9 @@ memory)::
 * ``/OV``: a fix (a name in the user's waypoint table, see :func:`read_waypoints`), a fix with a 6-digit bearing
   (degrees, magnetic in the format) and distance (nautical miles) from it (``ABC090025``), or latitude and
   longitude in degrees and minutes (``4530N07315W``, ``45N073W``). A route between two fixes (``ABC-DEF``) is
-  refused: it is no single place. The bearing is turned to a true bearing by ``magnetic_variation`` (degrees,
-  east positive: true = magnetic + variation; default 0, i.e. the bearing is taken as true).
+  refused: it is no single place. The bearing is turned to a true bearing by the fix's ``variation`` in the
+  table, else by ``magnetic_variation`` (degrees, east positive: true = magnetic + variation; default 0, the
+  bearing taken as true, with a note).
 * ``/TM``: the time in UTC, ``hhmm``; the date comes from the ``date`` argument (the report carries none).
 * ``/FL``: three digits, hundreds of feet (``080`` is 8,000 ft); ``UNKN``, ``DURC`` (during climb), ``DURD``
   (during descent) have no level: flight level NaN. A range ``060-080`` gives its middle.
@@ -54,13 +55,12 @@ _HEADER = re.compile(r"^\s*(?:(?P<station>[A-Z0-9]{3,4})\s+)?(?P<kind>UUA|UA)(?=
 _FIELD_MARK = re.compile(r"/\s*(OV|TM|FL|TP|SK|WX|TA|WV|TB|IC)(?:(?<=FL)(?=UNKN|DURC|DURD)|(?![A-Z]))", re.I)
 _REMARK = re.compile(r"/\s*RM(?![A-Z])", re.I)
 _LATLON = re.compile(r"^([0-9]{2})([0-9]{2})?([NS])\s*([0-9]{3})([0-9]{2})?([EW])$")
-_FIX_OFFSET = re.compile(r"^([A-Z0-9]{2,5})\s*([0-9]{3})([0-9]{3})$")
-_FIX = re.compile(r"^[A-Z0-9]{2,5}$")
+_FIX_OFFSET = re.compile(r"^([A-Z0-9]{1,11}?)\s*([0-9]{3})([0-9]{3})$")
 NM = 1852.0  # m per nautical mile (exact, by definition)
 
 REPORT_COLUMNS = ["file", "line", "kind", "station", "location", "latitude", "longitude", "time", "flight_level",
                   "altitude_ft", "aircraft_type", "sky", "temperature_c", "icing", "intensity", "intensity_low",
-                  "ice_type", "icing_base_fl", "icing_top_fl", "icing_text", "remarks", "text"]
+                  "ice_type", "icing_base_fl", "icing_top_fl", "icing_text", "remarks", "notes", "text"]
 
 
 class PirepFormatError(LocatedError, ValueError):
@@ -69,47 +69,27 @@ class PirepFormatError(LocatedError, ValueError):
 
 
 # ------------------------------------------------------------------------------------------------ waypoints
-def read_waypoints(path) -> dict[str, tuple[float, float]]:
-    """A waypoint table: CSV lines ``name,latitude,longitude`` (degrees, north and east positive), an optional
-    header line, ``#`` comments. Names are upper-cased. Returns ``{name: (latitude, longitude)}``.
+def read_waypoints(path):
+    """The user's waypoint table, read by the project's one reader of it
+    (:func:`icing.flight.item15.read_waypoints`: a CSV with the header ``name,latitude,longitude`` and optional
+    ``variation``, magnetic, degrees east positive, used for bearings from the point). Errors are its
+    :class:`~icing.errors.RouteFormatError` naming the file and line."""
+    from icing.flight.item15 import read_waypoints as read_table
 
-    Raises :class:`PirepFormatError` (file, line, reason) for a line that is not a name and two numbers in
-    range, or a name given twice.
-    """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise PirepFormatError(f"cannot read the waypoint table: {exc}", file=path) from None
-    table: dict[str, tuple[float, float]] = {}
-    for n, raw in enumerate(text.splitlines(), start=1):
-        line = raw.split("#", 1)[0].strip()
-        if not line:
-            continue
-        parts = [p.strip() for p in line.split(",")]
-        if len(parts) != 3:
-            raise PirepFormatError(f"expected name,latitude,longitude, got {len(parts)} fields", file=path, line=n)
-        name, la, lo = parts
-        try:
-            lat, lon = float(la), float(lo)
-        except ValueError:
-            if not table and la.lower().startswith("lat"):  # a header line
-                continue
-            raise PirepFormatError(f"latitude and longitude must be numbers, not {la!r}, {lo!r}", file=path,
-                                   line=n) from None
-        if not (np.isfinite(lat) and np.isfinite(lon) and -90 <= lat <= 90 and -180 <= lon <= 360):
-            raise PirepFormatError(f"position {lat}, {lon} out of range", file=path, line=n)
-        key = name.upper()
-        if not _FIX.match(key):
-            raise PirepFormatError(f"fix name {name!r} is not 2 to 5 letters or digits", file=path, line=n)
-        if key in table:
-            raise PirepFormatError(f"fix {key} given twice", file=path, line=n)
-        table[key] = (lat, lon if lon <= 180 else lon - 360)
-    return table
+    return read_table(path)
+
+
+def _table(waypoints):
+    """(points, variations) from a waypoint table, a ``{name: (lat, lon)}`` dict or None."""
+    if waypoints is None:
+        return {}, {}
+    if hasattr(waypoints, "points"):
+        return dict(waypoints.points), dict(getattr(waypoints, "variation", {}) or {})
+    return {str(k).upper(): v for k, v in dict(waypoints).items()}, {}
 
 
 # ------------------------------------------------------------------------------------------------ fields
-def _location(value, waypoints, magnetic_variation):
+def _location(value, waypoints, magnetic_variation, notes):
     v = " ".join(value.upper().split())
     if not v:
         raise ValueError("/OV is empty")
@@ -122,23 +102,28 @@ def _location(value, waypoints, magnetic_variation):
         if (m[2] and int(m[2]) >= 60) or (m[5] and int(m[5]) >= 60) or lat > 90 or lon > 180:
             raise ValueError(f"/OV {v}: latitude or longitude out of range")
         return (-lat if m[3] == "S" else lat), (-lon if m[6] == "W" else lon)
-    waypoints = waypoints or {}
-    if v.replace(" ", "") in waypoints:
-        return waypoints[v.replace(" ", "")]
+    points, variations = _table(waypoints)
+    if v.replace(" ", "") in points:
+        return points[v.replace(" ", "")]
     m = _FIX_OFFSET.match(v)
-    if m and m[1] in waypoints:
+    if m and m[1] in points:
         bearing, dist_nm = int(m[2]), int(m[3])
         if bearing > 360:
             raise ValueError(f"/OV {v}: bearing {bearing:03d} is over 360 degrees")
-        lat0, lon0 = waypoints[m[1]]
+        lat0, lon0 = points[m[1]]
         if dist_nm == 0:
             return lat0, lon0
         from pyproj import Geod
 
-        lon1, lat1, _ = Geod(ellps="WGS84").fwd(lon0, lat0, (bearing + magnetic_variation) % 360.0, dist_nm * NM)
+        var = variations.get(m[1])
+        if var is None:
+            var = magnetic_variation
+            if var == 0.0:
+                notes.append(f"bearing {bearing:03d} from {m[1]} taken as true (no magnetic variation given)")
+        lon1, lat1, _ = Geod(ellps="WGS84").fwd(lon0, lat0, (bearing + var) % 360.0, dist_nm * NM)
         return float(lat1), float(lon1)
     fix = m[1] if m else v
-    if not waypoints:
+    if not points:
         raise ValueError(f"/OV {v}: a fix needs a waypoint table (name,latitude,longitude)")
     raise ValueError(f"/OV {v}: fix {fix} is not in the waypoint table")
 
@@ -251,12 +236,14 @@ def parse_pirep(text, date=None, waypoints=None, *, file=None, line=None, magnet
         The report, e.g. ``"UA /OV 4530N07315W/TM 1522/FL080/TP PC12/TA M04/IC LGT RIME"``.
     date : str, datetime.date or datetime, optional
         The UTC date of the report (``/TM`` gives only hhmm). Without it ``time`` is NaT.
-    waypoints : dict, optional
-        ``{fix: (latitude, longitude)}`` (see :func:`read_waypoints`) for positions given by a fix.
+    waypoints : WaypointTable or dict, optional
+        A waypoint table (:func:`read_waypoints`; its ``variation`` of a fix turns bearings from it to true) or a
+        ``{fix: (latitude, longitude)}`` dict, for positions given by a fix.
     file, line : optional
         Where the report came from, for error messages and the ``file``/``line`` keys.
     magnetic_variation : float
-        Degrees east (positive) added to a bearing from a fix to make it true; default 0.
+        Degrees east (positive) added to a bearing from a fix that has no variation in the table, to make it
+        true; default 0 (the bearing is then taken as true and the report's ``notes`` say so).
 
     Raises
     ------
@@ -274,7 +261,8 @@ def parse_pirep(text, date=None, waypoints=None, *, file=None, line=None, magnet
         missing = [f"/{c}" for c in _MANDATORY if c not in fields]
         if missing:
             raise ValueError(f"missing mandatory field{'s' if len(missing) > 1 else ''} {', '.join(missing)}")
-        lat, lon = _location(fields["OV"], waypoints, float(magnetic_variation))
+        notes = []
+        lat, lon = _location(fields["OV"], waypoints, float(magnetic_variation), notes)
         time, _ = _time(fields["TM"], _as_date(date))
         fl = _flight_level(fields["FL"])
         if not fields["TP"]:
@@ -294,7 +282,7 @@ def parse_pirep(text, date=None, waypoints=None, *, file=None, line=None, magnet
             "time": time, "flight_level": fl, "altitude_ft": fl * 100.0, "aircraft_type": fields["TP"],
             "sky": fields.get("SK"), "temperature_c": temp, "icing": icing, "intensity": intensity,
             "intensity_low": low, "ice_type": kind, "icing_base_fl": layer[0], "icing_top_fl": layer[1],
-            "icing_text": fields.get("IC"), "remarks": fields.get("RM"),
+            "icing_text": fields.get("IC"), "remarks": fields.get("RM"), "notes": "; ".join(notes),
             "text": raw}
 
 
@@ -340,10 +328,10 @@ def parse_pireps(text, date=None, waypoints=None, *, file=None, errors="skip", m
 
 
 def read_pireps(path, date=None, waypoints=None, *, errors="skip", magnetic_variation=0.0):
-    """Pilot reports from a text file (see :func:`parse_pireps`). ``waypoints`` is a dict or the path of a
-    waypoint table (:func:`read_waypoints`)."""
+    """Pilot reports from a text file (see :func:`parse_pireps`). ``waypoints`` is a waypoint table, a dict or
+    the path of a waypoint table (:func:`read_waypoints`)."""
     path = Path(path)
-    if waypoints is not None and not isinstance(waypoints, dict):
+    if isinstance(waypoints, str) or hasattr(waypoints, "__fspath__"):
         waypoints = read_waypoints(waypoints)
     try:
         text = path.read_text(encoding="utf-8-sig")
