@@ -29,6 +29,10 @@ EXAMPLES = {
     "inspect": "examples:\n  icing inspect sample_soundings/S5_00105_2026011500.csv\n"
                "  icing inspect temp.txt --stations stations.csv --reference-time 2026-01-15",
     "aircraft": "examples:\n  icing aircraft",
+    "verify": "examples:\n"
+              "  icing verify reports.txt --date 2026-01-15 --soundings sample_soundings/\n"
+              "  icing verify reports.txt --date 2026-01-15 --waypoints fixes.csv --soundings dir/ --out out/\n"
+              "  icing verify reports.txt --date 2026-01-15 --model sample_soundings/model/demo_model.nc --format json",
     "grid": "examples:\n  icing grid sample_soundings/model/demo_model.nc --aircraft turboprop --out potential.nc\n"
             "  icing grid fields_*.grib2 --aircraft regional-jet --out potential.nc --workers 2\n"
             "  icing grid big.nc --aircraft turboprop --out potential.nc --scheduler tcp://10.0.0.5:8786",
@@ -161,6 +165,72 @@ def _add_screen_options(sp):
                     "segments.geojson, report.html with its figures) to DIR; e.g. --out report/")
 
 
+def _add_verify_parser(sub):
+    vp = _sub(sub, "verify", "verify the diagnosis against pilot reports",
+              "Match each pilot report (UA/UUA; /IC NEG counts as observed no icing) to the diagnosis at its "
+              "place, flight level and time, and print the contingency tables of icing / no icing and of "
+              "intensity with POD, FAR, CSI and TSS (Wilks 2011, ch. 8), and the reliability of any p_* shares. "
+              "A report without data is unknown, never counted as no icing.")
+    vp.add_argument("reports", help="pilot reports, one a line or separated by '='; e.g. reports.txt")
+    what = vp.add_mutually_exclusive_group(required=True)
+    what.add_argument("--soundings", nargs="+", metavar="FILE_OR_DIR", help="sounding files or directories "
+                      "(CSV, netCDF, TEMP, IGRA, BUFR); e.g. --soundings sample_soundings/")
+    what.add_argument("--model", metavar="FIELDS", help="a model grid on pressure levels (netCDF) instead of "
+                      "soundings; e.g. --model sample_soundings/model/demo_model.nc")
+    vp.add_argument("--date", required=True, metavar="YYYY-MM-DD", help="UTC date of the reports (their /TM "
+                    "gives only hhmm); e.g. --date 2026-01-15")
+    vp.add_argument("--waypoints", metavar="CSV", help="fix table name,latitude,longitude[,variation] for "
+                    "positions given as a fix (with bearing and distance); e.g. --waypoints fixes.csv")
+    vp.add_argument("--magnetic-variation", type=float, default=0.0, metavar="DEG", help="east variation added "
+                    "to bearings from fixes without one in the table (default 0); e.g. --magnetic-variation -12")
+    vp.add_argument("--aircraft", default="turboprop", metavar="NAME_OR_TOML", help="aircraft for the forecast "
+                    "intensity (reference body and speed; default turboprop); e.g. --aircraft regional-jet")
+    vp.add_argument("--max-minutes", type=float, default=360.0, metavar="MIN", help="a report farther in time "
+                    "from the nearest data used is unknown (default 360); e.g. --max-minutes 180")
+    vp.add_argument("--max-distance", type=float, default=300.0, metavar="KM",
+                    help="soundings farther than this are not used (default 300); e.g. --max-distance 200")
+    vp.add_argument("--max-age", type=float, default=12.0, metavar="HOURS",
+                    help="soundings older or newer than this are not used (default 12); e.g. --max-age 6")
+    vp.add_argument("--strict", action="store_true", help="stop at the first unreadable report (default: skip "
+                    "it and list it with its line and reason)")
+    vp.add_argument("--format", choices=["table", "json"], default="table", help="table (default) or json; "
+                    "e.g. --format json")
+    vp.add_argument("--out", metavar="DIR", help="also write matches.csv, scores.json and reliability.png; "
+                    "e.g. --out verification/")
+    _add_reader_options(vp)
+    _add_physics_options(vp)
+    return vp
+
+
+def _verify(args):
+    import json
+
+    from icing.verify.match import verify_reports
+    from icing.verify.pireps import read_pireps
+
+    reports = read_pireps(args.reports, date=args.date, waypoints=args.waypoints,
+                          errors="raise" if args.strict else "skip", magnetic_variation=args.magnetic_variation)
+    if args.model:
+        from icing.flight.gridsource import GridSource
+
+        source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
+    else:
+        from icing.flight.assess import atmosphere_source
+
+        source = atmosphere_source(args.soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
+                                   cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
+                                   reference_time=args.reference_time, units=_units_option(args.units))
+    result = verify_reports(reports, source, args.aircraft, max_minutes=args.max_minutes)
+    if args.out:
+        written = result.write(args.out)
+        print(f"wrote {', '.join(str(p) for p in written)}", file=sys.stderr)
+    if args.format == "json":
+        print(json.dumps(result.to_dict(), indent=1))
+    else:
+        print(result.to_text())
+    return 0
+
+
 def _add_grid_parser(sub):
     """``icing grid`` (its arguments here so that help stays light; run by icing.grid.diagnosis.grid_main)."""
     gp = _sub(sub, "grid", "icing diagnostics and accretion potential over model grids",
@@ -253,6 +323,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_physics_options(pp)
     pp.add_argument("--top", type=float, metavar="HPA", help="top of the diagram, hPa (default: top of the data); "
                     "e.g. --top 300")
+    _add_verify_parser(sub)
     _add_grid_parser(sub)
     return parser
 
@@ -482,7 +553,9 @@ def main(argv=None) -> int:
             from icing.grid import grid_main
 
             return grid_main(args)
-        parser.error("give a command: screen, demo, layers, plot, inspect or aircraft")
+        if args.command == "verify":
+            return _verify(args)
+        parser.error("give a command: screen, demo, layers, plot, inspect, aircraft, grid or verify")
     except IcingError as exc:
         import re
 

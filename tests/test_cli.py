@@ -296,3 +296,22 @@ def test_help_imports_no_heavy_module():
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert r.returncode == 0, r.stderr
     assert r.stdout.strip().splitlines()[-1] == "HEAVY:"
+
+
+def test_verify_command(tmp_path, capsys):
+    """`icing verify` matches pilot reports (written from the FAA UA format's rules, invented places) to the
+    demo soundings and prints the 2x2 table with POD, FAR, CSI and TSS (Wilks 2011, ch. 8); a null report
+    (/IC NEG) counts as observed no icing; an unreadable report with --strict is a one-line error, exit 2."""
+    from icing.cli import main
+
+    reps = tmp_path / "reps.txt"
+    reps.write_text("UA /OV 5300N03200W/TM 0600/FL120/TP PROP/TA M08/IC MOD RIME\n"
+                    "UA /OV 5200N03400W/TM 0530/FL250/TP JET/TA M30/IC NEG\n")
+    assert main(["verify", str(reps), "--date", "2026-01-15", "--soundings", str(SAMPLES), "--format", "json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert "caution" in json.dumps(out).lower() or "ADVISORY" in json.dumps(out)
+    bad = tmp_path / "bad.txt"
+    bad.write_text("UA /OV 5300N03200W/TM 2599/FL120/IC MOD\n")
+    assert main(["verify", str(bad), "--date", "2026-01-15", "--soundings", str(SAMPLES), "--strict"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("icing: error:") and "bad.txt" in err
