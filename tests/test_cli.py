@@ -28,7 +28,7 @@ import pytest
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_soundings"
 S1 = SAMPLES / "S1_00101_2026011500.csv"
 ROUTE = SAMPLES / "demo_route.csv"
-COMMANDS = ("screen", "demo", "layers", "plot", "inspect", "aircraft", "grid")
+COMMANDS = ("screen", "demo", "layers", "plot", "inspect", "aircraft", "grid", "verify")
 HEAVY = ("numpy", "pandas", "xarray", "matplotlib", "metpy", "scipy", "pint", "numba", "pyproj")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948
 
