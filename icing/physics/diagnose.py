@@ -363,11 +363,8 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     npro = t.shape[0]
     settings = np.array([prm[k] for k in cloud.CLOUD_SETTINGS] + [
         prm["convective_excess_k"],
-        *((np.nan, np.nan) if prm["stratiform_factor"] is None and prm["convective_factor"] is None else (
-            microphysics.SUBADIABATIC_FACTOR["stratiform"] if prm["stratiform_factor"] is None
-            else prm["stratiform_factor"],
-            microphysics.SUBADIABATIC_FACTOR["convective"] if prm["convective_factor"] is None
-            else prm["convective_factor"])),
+        *((np.nan, np.nan) if prm["stratiform_factor"] is None and prm["convective_factor"] is None else
+          microphysics.subadiabatic_factors(prm["stratiform_factor"], prm["convective_factor"])),
         prm["drizzle_top_temperature"], prm["drizzle_min_thickness_m"], prm["melting_area_aloft"],
         np.nan if prm["liquid_rh"] is None else prm["liquid_rh"]], dtype=float)
     tables = (np.asarray(cloud.ZHANG_HEIGHTS_M, dtype=float), np.asarray(prm["min_rh"], dtype=float),

@@ -15,7 +15,7 @@ from icing.physics.jit import jitable
 
 __all__ = [
     "HOMOGENEOUS_FREEZING_K", "SUBADIABATIC_FACTOR", "DROPLET_NUMBER", "SPECTRAL_SHAPE_K", "RHO_WATER",
-    "liquid_fraction", "check_cold_limit", "adiabatic_fraction", "subadiabatic_factor",
+    "liquid_fraction", "check_cold_limit", "adiabatic_fraction", "subadiabatic_factor", "subadiabatic_factors",
     "cloud_kind_factor", "droplet_number_concentration",
     "mean_volume_diameter", "mvd_to_mean_volume_ratio", "median_volume_diameter",
 ]
@@ -86,9 +86,13 @@ def subadiabatic_factor(cloud_kind, stratiform=None, convective=None):
     Defaults are :data:`SUBADIABATIC_FACTOR` (stratiform 0.8 after Wood 2012, convective 0.4 after Warner
     1955/1970; both from memory). :func:`cloud_kind_factor` is the same with both factors given.
     """
-    fs = SUBADIABATIC_FACTOR["stratiform"] if stratiform is None else float(stratiform)
-    fc = SUBADIABATIC_FACTOR["convective"] if convective is None else float(convective)
-    return cloud_kind_factor(np.asarray(cloud_kind), fs, fc)
+    return cloud_kind_factor(np.asarray(cloud_kind), *subadiabatic_factors(stratiform, convective))
+
+
+def subadiabatic_factors(stratiform=None, convective=None):
+    """The (stratiform, convective) factors, each :data:`SUBADIABATIC_FACTOR`'s value where not given."""
+    return (SUBADIABATIC_FACTOR["stratiform"] if stratiform is None else float(stratiform),
+            SUBADIABATIC_FACTOR["convective"] if convective is None else float(convective))
 
 
 @jitable
