@@ -46,21 +46,69 @@ def test_nusselt_churchill_bernstein_hand_value():
 
 
 # ------------------------------------------------------------------------------------ collision efficiency
-@pytest.mark.parametrize(("k", "e_ref"), [(1.26, 0.445), (5.04, 0.760), (20.1, 0.928), (125.9, 0.987)])
-def test_collision_efficiency_langmuir_blodgett_table_iv(k, e_ref):
-    """Langmuir and Blodgett (1946), Table IV, phi -> 0 (E = K/(K + pi/2)), +-0.05.
+# Langmuir and Blodgett (1946), Table II: overall collection efficiency E_m of a circular cylinder against the
+# inertia parameter K at fixed range parameter phi (their Stokes-law K and phi = Re^2/K, as here). The values are
+# the report's, as transcribed from Table II in a public re-analysis of the report (icinganalysis.github.io,
+# file icinganalysis/langmuir_blodgett_table_ii.py, "table_II_original_data"); the printed table itself was not
+# seen. Two K grids alternate between the rows, as in the report.
+_K_A = (0.144, 0.196, 0.256, 0.4, 0.625, 0.9, 1.6, 3.6, 6.4, 10, 19.6, 32.4, 62.5, 90, 160, 360, 640, 1000)
+_K_B = (0.16, 0.25, 0.36, 0.64, 1, 1.96, 3.24, 6.25, 9, 16, 36, 64, 100, 196, 324, 625, 900)
+LB_TABLE_II_EM = {
+    0.0: (_K_A, (0.002, 0.018, 0.045, 0.129, 0.253, 0.358, 0.506, 0.696, 0.803, 0.864, 0.926, 0.954, 0.976, 0.983,
+                 0.990, 0.996, 0.998, 0.998)),
+    10.0: (_K_A, (0.002, 0.015, 0.038, 0.106, 0.214, 0.314, 0.468, 0.655, 0.766, 0.832, 0.901, 0.935, 0.963, 0.973,
+                  0.983, 0.992, 0.995, 0.996)),
+    100.0: (_K_B, (0.004, 0.029, 0.068, 0.181, 0.294, 0.475, 0.591, 0.721, 0.781, 0.855, 0.922, 0.951, 0.966, 0.980,
+                   0.987, 0.992, 0.994)),
+    1000.0: (_K_A, (0.001, 0.009, 0.022, 0.062, 0.127, 0.203, 0.340, 0.542, 0.659, 0.737, 0.830, 0.880, 0.925,
+                    0.942, 0.962, 0.979, 0.986, 0.989)),
+    1.0e4: (_K_B, (0.001, 0.012, 0.030, 0.080, 0.148, 0.280, 0.394, 0.546, 0.620, 0.717, 0.820, 0.873, 0.904, 0.937,
+                   0.954, 0.968, 0.974)),
+}
+LB_TABLE_II_EM_PHI_1E5 = (_K_A, (0.0002, 0.002, 0.006, 0.019, 0.040, 0.067, 0.135, 0.276, 0.388, 0.475, 0.597, 0.673,
+                                 0.753, 0.792, 0.840, 0.890, 0.917, 0.933))
 
-    A thin wire (D = 0.1 mm) at 10 m/s gives phi below 1; the drop diameter is solved from the definition
-    K = rho_w d^2 v / (9 mu D) for the tabulated K.
+
+@pytest.mark.parametrize("phi", sorted(LB_TABLE_II_EM))
+def test_collision_efficiency_langmuir_blodgett_table_ii(phi):
+    """Langmuir and Blodgett (1946), Table II (E_m of a cylinder; transcription named above): every tabulated K
+    of the row within 0.04, and the row's root-mean-square difference within 0.02.
+
+    Finstad et al. (1988) fitted their own trajectory computations, not this table, so the fit is not exact
+    here (largest difference 0.036, at phi = 10 in our join to the phi -> 0 limit; 0.034 within the fit's
+    range phi 100-1e4). The tolerance is ours, just above that spread: E = K/(K + pi/2) fails it (by 0.28 at
+    phi = 1000), and so does the fit with its scale 1.066 or its exponents -0.688 or 0.381 off by 10 %
+    (coefficients that move E by less than the spread between the two computations, such as the offsets
+    0.028 and 0.0454, cannot be told apart by any table of this resolution).
     """
+    k, e_ref = (np.asarray(x, dtype=float) for x in LB_TABLE_II_EM[phi])
+    e = acc.collision_efficiency_si(k, phi)
+    assert_allclose(e, e_ref, atol=0.04, rtol=0)
+    assert np.sqrt(np.mean((e - e_ref) ** 2)) <= 0.02
+
+
+def test_collision_efficiency_beyond_fit_range_errs_high():
+    """Langmuir and Blodgett (1946), Table II at phi = 1e5 (transcription named above): beyond the fit's range
+    (phi > 1e4) E is held at its phi = 1e4 value, which is never below the tabulated E_m (the cautious side:
+    more ice, not less). At phi = 1e4 itself the held value is the table's within 0.04 (test above)."""
+    k, e_ref = (np.asarray(x, dtype=float) for x in LB_TABLE_II_EM_PHI_1E5)
+    e = acc.collision_efficiency_si(k, 1.0e5)
+    assert np.all(e >= e_ref - 0.01)
+
+
+def test_collision_efficiency_public_edge_matches_table_ii():
+    """Langmuir and Blodgett (1946), Table II, through the Quantity edge: a thin wire (D = 0.1 mm) at 10 m/s in
+    air at 0 degC, 1013.25 hPa has phi below 1 (phi -> 0 row); the drop diameter is solved from the definition
+    K = rho_w d^2 v / (9 mu D) for tabulated K = 1.6, 6.4 and 32.4 (E_m 0.506, 0.803, 0.954), within 0.03.
+    mu from Sutherland's law in White's spelling (see _sutherland_white)."""
     t, p, v, dd = 273.15, 101325.0, 10.0, 1e-4
     mu = _sutherland_white(t)
     rho_a = p / (287.05 * t)
-    d = np.sqrt(k * 9.0 * mu * dd / (RHO_W * v))
-    phi = (rho_a * v * d / mu) ** 2 / k
-    assert phi < 1.0
-    e = acc.collision_efficiency(d * ureg.m, v * ureg("m/s"), dd * ureg.m, t * ureg.K, p * ureg.Pa)
-    assert_allclose(e.m_as(""), e_ref, atol=0.05)
+    for k, e_ref in [(1.6, 0.506), (6.4, 0.803), (32.4, 0.954)]:
+        d = np.sqrt(k * 9.0 * mu * dd / (RHO_W * v))
+        assert (rho_a * v * d / mu) ** 2 / k < 1.0
+        e = acc.collision_efficiency(d * ureg.m, v * ureg("m/s"), dd * ureg.m, t * ureg.K, p * ureg.Pa)
+        assert_allclose(e.m_as(""), e_ref, atol=0.03)
 
 
 def test_collision_efficiency_worked_case():
@@ -294,12 +342,15 @@ def test_accreted_ice_time_dependent():
 
 
 def test_heat_transfer_of_an_iced_cylinder():
-    """Makkonen (1985), rough iced cylinders: Nu = 0.032 Re^0.85 (from memory), recomputed by hand: 569 at
-    Re = 1e5; ice roughness raises the heat transfer above the smooth cylinder's (Churchill and Bernstein 1977)
-    at the Reynolds numbers of aircraft parts (Re 1e5-1e6), and the smooth value stands at small Re."""
+    """Rough iced cylinders, mean heat transfer: Makkonen's (1985) correlation used here agrees within 30 % with
+    the independent correlation of the rotating-multicylinder analysis, Nu = 0.082 Re^0.747 (NACA TR-1215,
+    1955, eq. F12, as transcribed in the public re-analysis named above; the report not seen) over Re 1e4-1e5.
+    Ice roughness raises the heat transfer above the smooth cylinder's (Churchill and Bernstein 1977) at the
+    Reynolds numbers of aircraft parts (Re 1e5-1e6; rough cylinders, Achenbach 1977, from memory), and the
+    smooth value stands at small Re."""
     pr = 0.71
-    assert_allclose(acc.nusselt_iced_cylinder_si(1e5, pr), 0.032 * 1e5**0.85, rtol=1e-12)
-    assert_allclose(acc.nusselt_iced_cylinder_si(1e5, pr), 569.0, rtol=2e-3)
+    re = np.array([1e4, 2e4, 5e4, 1e5])
+    assert_allclose(acc.nusselt_iced_cylinder_si(re, pr), 0.082 * re**0.747, rtol=0.30)
     re = np.array([1e5, 3e5, 1e6])
     assert np.all(acc.nusselt_iced_cylinder_si(re, pr) > acc.nusselt_cylinder_si(re, pr))
     assert acc.nusselt_iced_cylinder_si(100.0, pr) == acc.nusselt_cylinder_si(100.0, pr)

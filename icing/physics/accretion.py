@@ -12,16 +12,27 @@ per unit span, with the collision efficiency alpha1 from Finstad, Lozowski and G
 efficiency alpha2 = 1 (supercooled drops stick), and the freezing fraction alpha3 from a steady heat balance
 (Messinger 1953). The body is a circular cylinder of diameter D standing for the leading edge.
 
+Place on the body: collection and heat transfer are both averaged over the cylinder, as in Makkonen's
+cylinder model (2000) and its heat-transfer basis (Makkonen 1985): the overall collision efficiency E (not the
+stagnation-line beta_0), the water it brings spread over the circumference, and the circumference-mean
+Nusselt number of a cylinder rough with ice. The freezing fraction, surface temperature, ice type and density
+are therefore those of the whole cylinder; at the stagnation line itself more water arrives per unit area
+(beta_0 > E) and the heat transfer is higher too, so the leading edge can be wetter than this mean.
+
 References
 ----------
 Churchill, S. W. and Bernstein, M. (1977): A correlating equation for forced convection from gases and
 liquids to a circular cylinder in crossflow. J. Heat Transfer 99, 300-306.
+Bain, M. and Gayet, J. F. (1983): Contribution to the modelling of the ice accretion process: ice density
+variation with the impacted surface angle. Ann. Glaciol. 4, 19-23 (reference from memory; the density law
+as given by Makkonen 2000).
 Finstad, K. J., Lozowski, E. P. and Gates, E. M. (1988): A computational investigation of water droplet
 trajectories. J. Atmos. Oceanic Technol. 5, 160-170.
 Langmuir, I. and Blodgett, K. B. (1946): A mathematical investigation of water droplet trajectories.
-Army Air Forces Tech. Rep. 5418.
+Army Air Forces Tech. Rep. 5418 (Table II: E_m, beta_0 and theta_m of a cylinder against K and phi).
 Macklin, W. C. (1962): The density and structure of ice formed by accretion. Q. J. R. Meteorol. Soc. 88,
 30-50.
+Makkonen, L. (1985): Heat transfer and icing of a rough cylinder. Cold Reg. Sci. Technol. 10, 105-116.
 Makkonen, L. (2000): Models for the growth of rime, glaze, icicles and wet snow on structures. Phil.
 Trans. R. Soc. Lond. A 358, 2913-2939.
 Messinger, B. L. (1953): Equilibrium temperature of an unheated icing surface as a function of air speed.
@@ -138,10 +149,15 @@ def nusselt_cylinder_si(reynolds, prandtl):
 
 
 def nusselt_iced_cylinder_si(reynolds, prandtl):
-    """Mean Nusselt number of a cylinder whose surface is rough with ice: the larger of Makkonen's (1985)
-    rough-cylinder correlation, :math:`Nu = 0.032 Re^{0.85}` (measured on iced cylinders, Re about
-    1e4-4e5; Makkonen 1985, Cold Reg. Sci. Technol. 10, 105-116, as used in Makkonen 2000; from memory), and
-    the smooth cylinder of :func:`nusselt_cylinder_si` (which it exceeds above Re of about 2e4)."""
+    """Circumference-mean (overall) Nusselt number of a cylinder whose surface is rough with ice.
+
+    The larger of Makkonen's (1985) rough-cylinder correlation, :math:`Nu = 0.032 Re^{0.85}` (overall heat
+    transfer of iced cylinders, Re about 1e4-4e5; Makkonen 1985, Cold Reg. Sci. Technol. 10, 105-116, as used
+    in Makkonen 2000; coefficient and exponent from memory, the paper not seen), and the smooth cylinder of
+    :func:`nusselt_cylinder_si` (which it exceeds above Re of about 2e4). It is a mean over the whole
+    cylinder, not the stagnation-line value, to match the overall collision efficiency used with it. An
+    independent rough iced-cylinder correlation of the rotating multicylinder analysis (NACA TR-1215, 1955,
+    eq. F12, Nu = 0.082 Re^0.747) agrees within 30 % for Re 1e4-1e5 (tests/test_accretion.py)."""
     return np.maximum(0.032 * np.asarray(reynolds, dtype=float) ** 0.85, nusselt_cylinder_si(reynolds, prandtl))
 
 
@@ -188,16 +204,24 @@ def collision_efficiency_si(inertia_parameter, range_parameter):
               A = 1.066 K^{-0.00616} e^{-1.103 K^{-0.688}}, \\quad
               B = 3.641 K^{-0.498} e^{-1.497 K^{-0.694}}, \\quad C = 0.00637 (\\phi - 100)^{0.381}
 
-    The fit holds for K >= 0.17 and phi >= 100 (roughly to phi = 10^4). How we join it to the limits (our
-    choice, continuous everywhere):
+    The fit holds for K >= 0.17 and 100 <= phi <= 10^4 (the range given with it by Makkonen 2000). Against
+    the overall collection efficiency E_m of Langmuir and Blodgett's (1946) Table II it agrees within 0.036
+    (root mean square under 0.02) for phi = 0, 10, 100, 1000 and 10^4, K 0.14-1000 (tests/test_accretion.py;
+    Finstad et al. fitted their own trajectory computations, which differ slightly from Langmuir and
+    Blodgett's differential-analyser results). How we join it to the limits (our choice, continuous
+    everywhere):
 
     * K <= 0.125: E = 0, the Langmuir-Blodgett inertia threshold (no drop reaches the cylinder);
     * 0.125 < K < 0.17: linear in K from 0 at K = 0.125 to the fit's value at K = 0.17;
     * phi < 100: linear in phi from the Langmuir-Blodgett phi -> 0 limit (see :func:`_langmuir_phi0`) at
       phi = 0 to the fit at phi = 100 (errs high, which is the cautious side);
-    * beyond phi = 10^4 (large, fast bodies) phi is held at 10^4: extrapolated, the fit's C term keeps
-      growing and drives E to zero even as K rises, so that a faster aircraft would collect less; E falls
-      with phi, so holding it errs high, the cautious side. The result is clipped to [0, 1].
+    * beyond phi = 10^4 (large, fast bodies) phi is held at 10^4: E falls with phi, so holding it errs
+      high, the cautious side. Against Langmuir and Blodgett's Table II at phi = 10^5 the held value is
+      high by up to 0.17 (K about 3-10), while the fit extrapolated there is low by up to 0.14, and further
+      out its C term drives E to zero even as K rises, so that a faster aircraft would collect less. With
+      phi = 9 rho_a^2 v D / (mu rho_w), the presets' reference bodies (D 0.05-0.10 m) stay below about
+      phi = 2e4 (fast and low), where holding errs high by about 0.05 at most. The result is clipped to
+      [0, 1].
 
     NaN in gives NaN out.
     """
@@ -399,7 +423,10 @@ def accretion_core(lwc, mvd, airspeed, temperature, pressure, body_diameter, *, 
         ``wet_growth`` (bool), ``mass_rate`` (kg per m of span per s: alpha1 alpha3 w v D with alpha2 = 1 for
         supercooled drops), ``ice_density`` (kg/m3), ``thickness_rate`` (m/s on the leading edge: the mass
         per unit frontal area, alpha1 alpha3 w v, over the ice density, i.e. all the ice grows forward on the
-        projected width D, the stagnation-line view), ``ice_type`` (int8: 0 none, 1 rime, 2 mixed, 3 glaze,
+        projected width D; this is the mean over the frontal width, below the stagnation-line value
+        beta_0 alpha3 w v / rho by the factor beta_0/E (about 1.1 at K = 10, 1.5 at K = 1.6 and more at
+        smaller K; Langmuir and Blodgett 1946, Table II), and pi times the ice spread evenly round the
+        body), ``ice_type`` (int8: 0 none, 1 rime, 2 mixed, 3 glaze,
         -1 unknown; see :func:`ice_type_code`). Where no ice grows the density is NaN (not applicable).
         ``warm_surface`` (bool): supercooled drops hit the body but the aerodynamic and kinetic heating keep
         its surface above 0 deg C, so nothing freezes there (the water may freeze further aft as runback
@@ -518,10 +545,12 @@ def collision_efficiency(droplet_diameter, airspeed, body_diameter, temperature,
 def freezing_fraction(liquid_water_content, droplet_diameter, airspeed, body_diameter, temperature, pressure):
     """Freezing fraction (alpha3), surface temperature and wet growth of a cylinder in supercooled cloud.
 
-    Steady heat balance of Messinger (1953) in the form of Makkonen (2000): convection (Nusselt number of
-    Churchill and Bernstein 1977), evaporation or sublimation, warming of the impinging water, kinetic
-    heating of the drops and aerodynamic heating with a recovery factor, against the latent heat of fusion
-    released. See :func:`heat_balance_si`. Valid for supercooled cloud, about -40 to 0 deg C.
+    Steady heat balance of Messinger (1953) in the form of Makkonen (2000), averaged over the cylinder:
+    convection (circumference-mean Nusselt number of a cylinder rough with ice, Makkonen 1985, or of a smooth
+    one after Churchill and Bernstein 1977 where larger), evaporation or sublimation, warming of the
+    impinging water (the overall collision efficiency's catch spread over the circumference), kinetic heating
+    of the drops and aerodynamic heating with a recovery factor, against the latent heat of fusion released.
+    See :func:`heat_balance_si`. Valid for supercooled cloud, about -40 to 0 deg C.
 
     Returns
     -------
