@@ -112,15 +112,21 @@ def atmosphere_source(soundings, **options):
     return SoundingSource(profiles, **{k: v for k, v in options.items() if k in keys and v is not None})
 
 
-def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
+def _sample_points(traj, offset_ft=0.0):
+    """The trajectory's points as a source samples them (pressure at flight levels, else height), and altitude."""
     alt = np.maximum(traj["altitude_ft"].to_numpy() + offset_ft, -1000.0)
     fl = traj["flight_level"].to_numpy()
-    pressure = np.where(fl, thermo.pressure_from_pressure_altitude_ft(alt), np.nan)
-    height = np.where(fl, np.nan, alt * FT)
-    times = traj["time_s"].to_numpy().astype("int64").astype("datetime64[s]")
+    return {"latitude": traj["latitude"].to_numpy(), "longitude": traj["longitude"].to_numpy(),
+            "time": traj["time_s"].to_numpy().astype("int64").astype("datetime64[s]"),
+            "pressure": np.where(fl, thermo.pressure_from_pressure_altitude_ft(alt), np.nan),
+            "height": np.where(fl, np.nan, alt * FT)}, alt
+
+
+def _sample_atmosphere(source, traj, offset_ft=0.0, weights=None):
+    pts, alt = _sample_points(traj, offset_ft)
     kw = {} if weights is None else {"weights": weights}
-    return source.sample(traj["latitude"].to_numpy(), traj["longitude"].to_numpy(), times, pressure=pressure,
-                         height=height, **kw), alt
+    return source.sample(pts["latitude"], pts["longitude"], pts["time"], pressure=pts["pressure"],
+                         height=pts["height"], **kw), alt
 
 
 def _accrete(atm, tas_ms, body_diameter_m):
@@ -149,8 +155,50 @@ def _intensity(rate_mm_h):
     return np.asarray(intensity_code(np.asarray(rate_mm_h) / 1000.0 / 3600.0))
 
 
+def _sample_codes(rate, lwc, mvd, temp, ld, icing_certified):
+    """The rate's word on the reference body, held to what the words mean for this aircraft (envelopes)."""
+    from icing.physics.envelopes import intensity_for_conditions
+
+    return intensity_for_conditions(_intensity(rate), lwc, mvd, temp, ld, icing_certified).astype(int)
+
+
+def _segment_intensity(codes, cov, starts):
+    """Per segment: data status codes (:data:`DATA_STATUS`) and intensity codes (:data:`INTENSITY_DTYPE`;
+    ``unknown`` where no data, or partial data without icing found)."""
+    cov_min = _reduce(np.minimum, cov, starts)
+    cov_max = _reduce(np.maximum, cov, starts)
+    status = np.where(cov_min >= FULL, 0, np.where(cov_max <= 0, 2, 1))
+    code = _reduce(np.maximum, codes, starts)
+    missing = status == 2
+    return status, np.where(missing | ((status == 1) & (code <= 0)), len(INTENSITIES), np.clip(code, 0, 4))
+
+
+def _member_outcome(atm, members, *, tas_ms, duration_s, starts, body_diameter_m, icing_certified):
+    """Per segment of ``members`` stacked runs of the same samples: intensity codes (0-4, 5 unknown) and
+    accretion (mm, NaN without data), (members, segments) each: the scoring of :func:`_segment_tables`."""
+    n = tas_ms.size
+    tas = np.tile(tas_ms, members)
+    dur = np.tile(duration_s, members)
+    starts_m = (np.asarray(starts)[None, :] + n * np.arange(members)[:, None]).ravel()
+    rate, _, _, _ = _accrete(atm, tas, body_diameter_m)
+    codes = _sample_codes(rate, np.nan_to_num(atm["lwc"]), atm["mvd"], atm["temperature"],
+                          np.nan_to_num(atm["large_drop"]).astype(int), icing_certified)
+    status, intensity = _segment_intensity(codes, atm["coverage"], starts_m)
+    acc = _reduce(np.add, np.where(np.isfinite(rate), rate, 0.0) * dur / 3600.0, starts_m)
+    acc = np.where(status == 2, np.nan, acc)
+    return intensity.reshape(members, -1), acc.reshape(members, -1)
+
+
+def _segment_starts(routes, route_i, leg):
+    """First sample of each segment of all routes (samples in route and leg order)."""
+    offsets = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in routes])])
+    gid = offsets[route_i] + leg  # global segment number, non-decreasing along the samples
+    return np.flatnonzero(np.concatenate([[True], np.diff(gid) != 0])), offsets
+
+
 def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departure=None,
-                 offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, **options) -> Assessment:
+                 offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, spread=False, members=30, seed=0,
+                 **options) -> Assessment:
     """Screen a route for airframe icing, segment by segment.
 
     Parameters
@@ -172,6 +220,13 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
         kinetic heating (its "no ice" would hide runback ice).
     use_winds : bool
         Ground speed from true airspeed plus the sounding winds where known.
+    spread : bool or dict
+        True runs the chain over a seeded ensemble of its assumptions (:mod:`icing.flight.spread`; soundings
+        only) and adds the columns ``p_light``, ``p_moderate``, ``p_severe``, ``accretion_p10_mm``,
+        ``accretion_p90_mm``, ``spread_driver`` and ``summary["spread"]``; a dict gives the assumptions' ranges
+        (name -> ``(low, high)``, or 0 for none; see :func:`icing.flight.spread.resolve_ranges`).
+    members, seed : int
+        Ensemble size (default 30) and the seed of its draws (default 0), used with ``spread``.
     options :
         ``max_distance_km``, ``max_age_hours``, ``max_stations`` (matching), ``cold_limit``, ``airmass`` and the
         cloud thresholds (diagnosis), ``stations`` and ``reference_time`` (TEMP reports), ``units`` (tables
@@ -219,11 +274,13 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
     """
     _check_options("assess_route", options, hasattr(soundings, "sample"), route_options=True)
     return assess_routes([route], soundings, aircraft, step_s=step_s, departure=departure,
-                         offsets_ft=offsets_ft, use_winds=use_winds, **options)[0]
+                         offsets_ft=offsets_ft, use_winds=use_winds, spread=spread, members=members, seed=seed,
+                         **options)[0]
 
 
 def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, departure=None,
-                  offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, **options) -> list[Assessment]:
+                  offsets_ft=DEFAULT_OFFSETS_FT, use_winds=True, spread=False, members=30, seed=0,
+                  **options) -> list[Assessment]:
     """Screen many routes against one atmosphere source in one vectorised pass (see :func:`assess_route`)."""
     from dataclasses import replace
 
@@ -298,6 +355,22 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         alt_acc[off] = np.where(ok, r2 * dur / 3600.0, np.nan)
     segments, alternatives = _segment_tables(rts, samples, atm["used"], source, alt_acc, ice,
                                              ac.icing_certified)
+    ensemble = None
+    if spread is not False and spread is not None:  # how sure: the chain over a seeded ensemble of assumptions
+        from functools import partial
+
+        from icing.flight.spread import route_spread
+
+        starts, _ = _segment_starts(rts, traj["route"].to_numpy(), traj["leg"].to_numpy())
+        outcome = partial(_member_outcome, tas_ms=tas, duration_s=traj["duration_s"].to_numpy(), starts=starts,
+                          body_diameter_m=ac.body_diameter_m, icing_certified=ac.icing_certified)
+        built = hasattr(soundings, "sample")
+        ensemble = route_spread(source, _sample_points(traj)[0], outcome, members=members, seed=seed,
+                                ranges=spread if isinstance(spread, dict) else None, weights=weights,
+                                options=None if built else {k: v for k, v in options.items()
+                                                            if k in _source_options(options) and k not in
+                                                            (*MATCH_OPTIONS, *READ_OPTIONS)})
+        segments = segments.assign(**ensemble["columns"])
     out = []
     bounds = np.concatenate([[0], np.cumsum(lengths)])
     seg_bounds = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in rts])])
@@ -317,6 +390,10 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         smp = _view(samples, bounds[i], bounds[i + 1])
         summary = _summary(r, ac, {k: v[a:b] for k, v in cols.items()}, step_s)
         summary["alternative_offsets_ft"] = [float(o) for o in offsets_ft]
+        if ensemble is not None:
+            from icing.flight.spread import spread_summary
+
+            summary["spread"] = spread_summary(ensemble, slice(a, b))
         out.append(Assessment(segments=seg, summary=summary, samples=smp, alternatives=alts, route=r,
                               source=source))
     return out
@@ -335,13 +412,11 @@ def _reduce(ufunc, values, starts):
 
 def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=False):
     """Aggregate samples into segments for all routes at once (reduceat over contiguous segment runs)."""
-    from icing.physics.envelopes import appendix_c_status, appendix_o_status, intensity_for_conditions
+    from icing.physics.envelopes import appendix_c_status, appendix_o_status
 
     route_i = smp["route"].to_numpy()
     leg = smp["leg"].to_numpy()
-    offsets = np.concatenate([[0], np.cumsum([len(r.waypoints) - 1 for r in routes])])
-    gid = offsets[route_i] + leg  # global segment number, non-decreasing along the samples
-    starts = np.flatnonzero(np.concatenate([[True], np.diff(gid) != 0]))
+    starts, offsets = _segment_starts(routes, route_i, leg)
     n_seg = offsets[-1]
     if starts.size != n_seg:
         raise AssertionError("every segment must hold at least one sample")
@@ -355,8 +430,7 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=Fal
     lwc = np.nan_to_num(smp["lwc_g_m3"].to_numpy())
     mvd = smp["mvd_um"].to_numpy()
     ld = np.nan_to_num(smp["large_drop"].to_numpy()).astype(int)
-    # the rate's word on the reference body, held to what the words mean for this aircraft (envelopes)
-    codes = intensity_for_conditions(_intensity(rate), lwc, mvd, temp, ld, icing_certified).astype(int)
+    codes = _sample_codes(rate, lwc, mvd, temp, ld, icing_certified)
     lvl = {"n/a": 0, "within": 1, "unknown": 2, "beyond": 3}  # the larger wins within a segment
     app_c = np.asarray(appendix_c_status(lwc, mvd, temp, alt))
     app_c = np.where(icing, np.vectorize(lvl.get)(app_c), 0) if app_c.size else app_c
@@ -371,13 +445,9 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=Fal
         n = _reduce(np.add, ok.astype(float), starts)
         return np.where(n > 0, _reduce(np.add, np.where(ok, v, 0.0), starts) / np.where(n > 0, n, 1), np.nan)
 
-    cov_min = _reduce(np.minimum, cov, starts)
-    cov_max = _reduce(np.maximum, cov, starts)
-    status = np.where(cov_min >= FULL, 0, np.where(cov_max <= 0, 2, 1))  # codes of DATA_STATUS
+    status, intensity = _segment_intensity(codes, cov, starts)
     data = np.asarray(DATA_STATUS)[status]
     missing = status == 2
-    code = _reduce(np.maximum, codes, starts)
-    intensity = np.where(missing | ((status == 1) & (code <= 0)), len(INTENSITIES), np.clip(code, 0, 4))
     n_icing = _reduce(np.add, icing.astype(float), starts)
     acc = _reduce(np.add, known * dur / 3600.0, starts)
     used_seg = np.logical_or.reduceat(used, starts, axis=0) if used.size else np.zeros((n_seg, 0), bool)
