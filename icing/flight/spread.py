@@ -347,9 +347,12 @@ class _Diagnoser:
                                                       "large_drop", "warm_layer_aloft")}}
         if lwc_factor != 1.0 or number_factor != 1.0:
             lwc = np.asarray(out["lwc"], dtype=float)
-            if lwc_factor != 1.0:
+            if lwc_factor > 1.0:  # held to the adiabatic value (a factor below 1 cannot pass it)
                 cap = self._run(shift, cold_shift, adiabatic=True)["lwc"]
                 scaled = np.minimum(lwc * lwc_factor, cap)
+            else:
+                scaled = lwc * lwc_factor
+            if lwc_factor != 1.0:
                 if self.model_liquid is not None:
                     scaled = np.where(self.model_liquid, lwc, scaled)
                 lwc = np.where(np.isfinite(lwc), scaled, lwc)
