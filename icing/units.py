@@ -13,8 +13,8 @@ from metpy.units import units as ureg
 
 from icing.errors import UnitError
 
-__all__ = ["ureg", "Quantity", "to_si", "dataarray_to_unit", "parse_unit", "parse_altitude", "parse_speed", "FT", "KT",
-           "NMI"]
+__all__ = ["ureg", "Quantity", "to_si", "dataarray_to_unit", "linear_conversion", "parse_unit", "parse_altitude",
+           "parse_speed", "FT", "KT", "NMI"]
 
 Quantity = ureg.Quantity
 
@@ -94,11 +94,9 @@ def to_si(value, unit: str, name: str = "value", default_unit: str | None = None
     return np.asarray(Quantity(np.asarray(value, dtype=float), default_unit).to(unit).magnitude, dtype=float)
 
 
-def dataarray_to_unit(da, unit: str):
-    """A (possibly dask-backed) DataArray converted from its ``units`` attribute to ``unit``.
-
-    Only linear conversions (a scale and an offset, as degC to K or hPa to Pa), applied lazily; the
-    DataArray comes back unchanged when no conversion is needed.
+def linear_conversion(da, unit: str) -> tuple[float, float]:
+    """``(scale, offset)`` that take a DataArray's values from its ``units`` attribute to ``unit``
+    (``value * scale + offset``); only linear conversions such as degC to K or hPa to Pa.
 
     Raises
     ------
@@ -113,7 +111,17 @@ def dataarray_to_unit(da, unit: str):
         b = Quantity(1.0, src).to(unit).magnitude - a
     except Exception as exc:
         raise UnitError(f"variable {da.name!r}: cannot convert {src!r} to {unit}") from exc
-    return da if (a, b) == (0.0, 1.0) else da * b + a
+    return float(b), float(a)
+
+
+def dataarray_to_unit(da, unit: str):
+    """A (possibly dask-backed) DataArray converted from its ``units`` attribute to ``unit``.
+
+    Only linear conversions (a scale and an offset, as degC to K or hPa to Pa, see :func:`linear_conversion`),
+    applied lazily; the DataArray comes back unchanged when no conversion is needed.
+    """
+    scale, offset = linear_conversion(da, unit)
+    return da if (scale, offset) == (1.0, 0.0) else da * scale + offset
 
 
 _FL = re.compile(r"^\s*FL\s*(\d{1,3})\s*$", re.IGNORECASE)

@@ -31,7 +31,7 @@ from icing.errors import ConfigError, IcingError
 from icing.physics import accretion, thermo
 from icing.physics.diagnose import DEFAULT_COLD_LIMIT_C, FIELD_ATTRS, LEVEL_OUTPUTS, PROFILE_OUTPUTS, diagnose_arrays
 from icing.physics.jit import jitable
-from icing.units import KT, dataarray_to_unit
+from icing.units import KT, linear_conversion
 
 __all__ = ["diagnose_grid", "grid_core", "column_summaries", "chunk_model", "scheduler", "write_grid",
            "grid_main", "N_FREEZING_LEVELS", "DEFAULT_CHUNK_POINTS", "SUMMARY_OUTPUTS"]
@@ -297,11 +297,14 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         raise ConfigError(f"unknown diagnostic parameter(s) {sorted(unknown)}; known: {sorted(CLOUD_DEFAULTS)}")
     ck = float(cold_limit) + thermo.T0
     ac, tas, diam = _aircraft(aircraft, airspeed_kt)
-    inputs = [dataarray_to_unit(model[name], unit)
-              for name, unit in (("pressure", "Pa"), ("temperature", "K"), ("dewpoint", "K"), ("height", "m"))]
+    wanted_units = [("pressure", "Pa"), ("temperature", "K"), ("dewpoint", "K"), ("height", "m")]
     has_cl = "cloud_liquid" in model
     if has_cl:
-        inputs.append(dataarray_to_unit(model["cloud_liquid"], "kg/m^3"))
+        wanted_units.append(("cloud_liquid", "kg/m^3"))
+    # The inputs go to the chunks as stored; each chunk converts its own block to SI (a scale and an offset)
+    # inside the one task, rather than through lazy arithmetic that adds two tasks a chunk and an input.
+    inputs = [model[name] for name, _ in wanted_units]
+    conversions = [linear_conversion(model[name], unit) for name, unit in wanted_units]
     level_names = list(LEVEL_OUTPUTS) + (list(ACCRETION_OUTPUTS) if ac is not None else [])
     column_names = list(PROFILE_OUTPUTS) + list(SUMMARY_OUTPUTS[:4]) + (list(SUMMARY_OUTPUTS[4:]) if ac else [])
     names = level_names + column_names
@@ -313,6 +316,8 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
         names = [n for n in names if n in wanted]
 
     def core(*arrs):
+        arrs = [a if (scale, offset) == (1.0, 0.0) else np.asarray(a, dtype=float) * scale + offset
+                for a, (scale, offset) in zip(arrs, conversions, strict=True)]
         out = grid_core(*arrs[:4], arrs[4] if has_cl else None, airspeed=tas, body_diameter=diam,
                         icing_certified=bool(getattr(ac, "icing_certified", False)), cold_limit=ck, airmass=airmass,
                         **thresholds)
@@ -333,7 +338,9 @@ def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_L
                         "cloud_liquid") if v in model]
     ds = model[keep].copy()
     for name, da, dims in zip(names, results, core_dims, strict=True):
-        ds[name] = da.transpose(*(lead + dims)).assign_attrs(_ATTRS.get(name) or FIELD_ATTRS.get(name, {}))
+        if list(da.dims) != lead + dims:  # (a transpose to the same order would still add a task a chunk)
+            da = da.transpose(*(lead + dims))
+        ds[name] = da.assign_attrs(_ATTRS.get(name) or FIELD_ATTRS.get(name, {}))
     if "freezing_levels" in names:
         ds = ds.assign_coords(crossing=np.arange(1, N_FREEZING_LEVELS + 1, dtype=np.int32))
     if "level" in ds.coords and np.issubdtype(ds["level"].dtype, np.integer):
