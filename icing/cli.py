@@ -21,7 +21,9 @@ EXAMPLES = {
               "  icing screen route.csv --soundings dir/ --aircraft my_plane.toml --set tas_cruise_kt=210\n"
               "  icing screen route.csv --soundings temp.txt --stations stations.csv --reference-time 2026-01-15 \\\n"
               "      --departure 2026-01-15T05:00Z --out report/\n"
-              "  icing screen route.csv --model sample_soundings/model/demo_model.nc --format csv > segments.csv",
+              "  icing screen route.csv --model sample_soundings/model/demo_model.nc --format csv > segments.csv\n"
+              "  icing screen sample_soundings/demo_route.csv --model sample_soundings/model/demo_model.nc \\\n"
+              "      --departures 2026-01-15T00:00Z/2026-01-15T12:00Z/PT1H --out window/",
     "demo": "examples:\n  icing demo\n  icing demo --format json\n  icing demo --out report/   "
             "(then open report/report.html)\n  icing demo --model --aircraft regional-jet",
     "layers": "examples:\n  icing layers sample_soundings/S1_00101_2026011500.csv\n"
@@ -289,6 +291,12 @@ def build_parser() -> argparse.ArgumentParser:
     what.add_argument("--model", metavar="FIELDS", help="a model grid on pressure levels (netCDF) instead of "
                       "soundings; e.g. --model sample_soundings/model/demo_model.nc")
     _add_screen_options(sp)
+    sp.add_argument("--departures", metavar="START/END/STEP",
+                    help="screen the route for each departure of a window instead of one: START and END ISO 8601 "
+                    "UTC, STEP an ISO 8601 duration (PT30M, PT1H) or 30min, 1h; END is included when it falls on "
+                    "the step. Prints one line a departure with the best window marked (the least icing among "
+                    "departures with complete data); --out writes departures.csv, departures.json and "
+                    "departures.png; e.g. --departures 2026-01-15T03:00Z/2026-01-15T09:00Z/PT30M")
     dp = _sub(sub, "demo", "screen the bundled demo route against the demo soundings",
               "Screen the bundled demo route (an invented scenario) against the bundled demo soundings; takes "
               "the options of 'icing screen'.")
@@ -328,22 +336,30 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _source(args, soundings):
+    """The atmosphere source of 'icing screen': the model grid (--model) or the soundings with their options."""
+    if getattr(args, "model", None):
+        from icing.flight.gridsource import GridSource
+
+        return GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
+    from icing.flight.assess import atmosphere_source
+
+    return atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
+                             cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
+                             reference_time=args.reference_time, units=_units_option(args.units))
+
+
 def _screen(args, route, soundings):
     from icing.flight.aircraft import get_aircraft
-    from icing.flight.assess import assess_route, atmosphere_source
+    from icing.flight.assess import assess_route
 
+    if getattr(args, "departures", None):
+        return _screen_departures(args, route, soundings)
     progress = Progress(4 if args.out else 2)
     try:
         ac = get_aircraft(args.aircraft, **_overrides(args.set))
         progress.step("reading and diagnosing soundings")
-        if getattr(args, "model", None):
-            from icing.flight.gridsource import GridSource
-
-            source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
-        else:
-            source = atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
-                                       cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
-                                       reference_time=args.reference_time, units=_units_option(args.units))
+        source = _source(args, soundings)
         progress.step("screening the route")
         try:
             if getattr(args, "waypoints", None):
@@ -384,6 +400,63 @@ def _screen(args, route, soundings):
         from icing.report.text import segment_table
 
         print(segment_table(result))
+    return 0
+
+
+def _departures_option(exc):
+    """A window error of the library (``departures: ...``) named as the command-line option."""
+    text = str(exc)
+    return IcingError("--departures " + text[len("departures: "):]) if text.startswith("departures: ") else exc
+
+
+def _screen_departures(args, route, soundings):
+    """'icing screen ROUTE --departures START/END/STEP': the route for each departure of a window."""
+    from icing.errors import RouteFormatError
+    from icing.flight.aircraft import get_aircraft
+    from icing.flight.departures import parse_departures, screen_departures
+
+    if args.departure:
+        raise IcingError("give --departure (one departure) or --departures (a window), not both")
+    fmt = "json" if args.json else args.format
+    if fmt == "geojson":
+        raise IcingError("--format geojson draws the segments of one departure; with --departures give --format "
+                         "table, json or csv")
+    try:
+        start, end, step = parse_departures(args.departures)  # before the soundings are read
+    except RouteFormatError as exc:
+        raise _departures_option(exc) from None
+    progress = Progress(3 if args.out else 2)
+    try:
+        ac = get_aircraft(args.aircraft, **_overrides(args.set))
+        progress.step("reading and diagnosing soundings")
+        source = _source(args, soundings)
+        progress.step("screening the route for each departure")
+        try:
+            table = screen_departures(route, source, ac, start=start, end=end, step=step,
+                                      waypoints=getattr(args, "waypoints", None), step_s=args.step,
+                                      min_altitude_ft=getattr(args, "min_altitude", 2000.0))
+        except IcingError as exc:
+            exc = _departures_option(exc)
+            raise (IcingError(str(exc).replace("reference_time", "--reference-time")) if "reference_time" in
+                   str(exc) else exc) from None
+        if args.out:
+            from icing.report.departures import write_departure_reports
+
+            progress.step("writing reports")
+            written = write_departure_reports(table, args.out)
+            progress.close()
+            print(f"wrote {len(written)} files to {args.out} ({', '.join(p.name for p in written)})",
+                  file=sys.stderr)
+    finally:
+        progress.close()
+    from icing.report.departures import departures_csv, departures_json, departures_text
+
+    if fmt == "json":
+        print(departures_json(table))
+    elif fmt == "csv":
+        sys.stdout.write(departures_csv(table))
+    else:
+        print(departures_text(table))
     return 0
 
 

@@ -315,3 +315,38 @@ def test_verify_command(tmp_path, capsys):
     assert main(["verify", str(bad), "--date", "2026-01-15", "--soundings", str(SAMPLES), "--strict"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("icing: error:") and "bad.txt" in err
+
+
+def test_screen_departures_window(tmp_path, capsys):
+    """`icing screen ROUTE --departures START/END/STEP`: one line a departure with the caution (table), the
+    same as CSV (caution comment first) and JSON, and with --out the CSV, JSON and PNG (ISO/IEC 15948 signature);
+    the step as an ISO 8601 duration or as 30min. Bad windows and --departure with --departures: one line, exit 2
+    (the values here are structure only: the physics is checked in tests/test_departures.py)."""
+    from icing.cli import main
+
+    model = str(SAMPLES / "model" / "demo_model.nc")
+    base = ["screen", str(ROUTE), "--model", model, "--departures"]
+    assert main([*base, "2026-01-15T03:00Z/2026-01-15T05:00Z/PT1H", "--out", str(tmp_path / "w")]) == 0
+    out, err = capsys.readouterr()
+    assert out.startswith("ADVISORY ONLY") and out.rstrip().endswith("local regulations.")
+    assert sum(line.startswith("2026-01-15 0") for line in out.splitlines()) == 3
+    assert "Best window" in out and "wrote 3 files" in err
+    assert (tmp_path / "w" / "departures.png").read_bytes()[:8] == PNG_SIGNATURE
+    assert json.loads((tmp_path / "w" / "departures.json").read_text())["caution"].startswith("ADVISORY ONLY")
+    assert main([*base, "2026-01-15T03:00Z/2026-01-15T04:00Z/30min", "--format", "csv"]) == 0
+    text = capsys.readouterr().out
+    assert text.startswith("# ADVISORY ONLY")
+    rows = list(csv.DictReader(io.StringIO(text.split("\n", 1)[1])))
+    assert [r["departure"] for r in rows] == ["2026-01-15T03:00:00Z", "2026-01-15T03:30:00Z", "2026-01-15T04:00:00Z"]
+    assert main([*base, "2026-01-15T03:00Z/2026-01-15T04:00Z/PT1H", "--json"]) == 0
+    assert len(json.loads(capsys.readouterr().out)["departures"]) == 2
+    for argv, words in (([*base, "2026-01-15T03:00Z/2026-01-15T04:00Z/P1M"], ["--departures", "P1M"]),
+                        ([*base, "2026-01-15T03:00Z/soon/PT1H"], ["--departures", "soon"]),
+                        ([*base, "2026-01-15T03:00Z/2026-01-15T04:00Z/PT1H", "--departure", "2026-01-15T03:00Z"],
+                         ["--departure", "--departures"]),
+                        ([*base, "2026-01-15T03:00Z/2026-01-15T04:00Z/PT1H", "--format", "geojson"], ["geojson"])):
+        assert main(argv) == 2
+        out, err = capsys.readouterr()
+        lines = [x for x in err.splitlines() if x.strip()]
+        assert out == "" and len(lines) == 1 and lines[0].startswith("icing: error:"), err
+        assert all(w in lines[0] for w in words), lines[0]
