@@ -232,8 +232,8 @@ def test_best_rule_intensity_then_large_drops_then_accretion_then_minutes():
 
 # -------------------------------------------------------------------------------------------- the window
 def test_step_forms():
-    """ISO 8601 durations (ISO 8601-1:2019, 5.5.2: PnW, PnDTnHnMnS; months and years have no fixed length and
-    are refused) and pandas' offset spelling (number and unit)."""
+    """ISO 8601 durations (ISO 8601-1:2019 durations, section number from memory: PnW, PnDTnHnMnS; months and
+    years have no fixed length and are refused) and pandas' offset spelling (number and unit)."""
     assert parse_step("PT30M") == pd.Timedelta(minutes=30)
     assert parse_step("PT1H30M") == pd.Timedelta(minutes=90)
     assert parse_step("P1DT2H") == pd.Timedelta(hours=26)
