@@ -235,3 +235,46 @@ def test_summary_lists_the_ranges_and_caution(source):
     assert "ADVISORY ONLY" in s["caution"]
     assert 0.0 <= s["p_severe"] <= s["p_moderate"] <= s["p_light"] <= 1.0
     assert s["accretion_p10_mm"] <= s["accretion_p50_mm"] <= s["accretion_p90_mm"]
+
+
+# --- reports --------------------------------------------------------------------------------------------------
+
+def figure_texts(fig):
+    return [t.get_text() for t in fig.findobj(lambda a: hasattr(a, "get_text"))]
+
+
+def test_text_table_shows_the_spread_and_is_unchanged_without(source):
+    """Project rule (unknown never safe; the caution on every output): the terminal table gains the share at
+    moderate or worse and the accretion range only with the spread columns."""
+    from icing.report.text import segment_table
+
+    rt = route(ROUTE_PTS, "FL080")
+    plain = segment_table(assess_route(rt, source))
+    text = segment_table(assess_route(rt, source, spread=True, members=6))
+    assert "mod+ %" not in plain and "How sure" not in plain
+    assert "mod+ %" in text and "mm 10-90" in text and "How sure: 6 members" in text
+    assert text.count("ADVISORY ONLY") == 2
+    assert "UNKNOWN (a member has a segment without data)" in text  # the missing leg makes the total unknown
+
+
+def test_html_report_has_the_fourth_figure(source, tmp_path):
+    from icing.report.html import write_html
+
+    rt = route(ROUTE_PTS, "FL080")
+    with_spread = write_html(assess_route(rt, source, spread=True, members=6), tmp_path / "a", soundings=False)
+    without = write_html(assess_route(rt, source), tmp_path / "b", soundings=False)
+    assert "how_sure.png" in {p.name for p in with_spread}
+    assert "how_sure.png" not in {p.name for p in without}
+    page = (tmp_path / "a" / "report.html").read_text(encoding="utf-8")
+    assert "How sure" in page and "moderate+ share" in page and "ADVISORY ONLY" in page
+
+
+def test_spread_figure_marks_missing_and_carries_the_caution(source):
+    from icing.report.spread_figure import spread_figure
+
+    fig = spread_figure(assess_route(route(ROUTE_PTS, "FL080"), source, spread=True, members=6))
+    texts = figure_texts(fig)
+    assert any("ADVISORY ONLY" in t for t in texts)
+    assert sum("no data:\nunknown" in t for t in texts) == 2  # both panels of the segment without data
+    with pytest.raises(Exception, match="spread=True"):
+        spread_figure(assess_route(route(ROUTE_PTS[:2], "FL080"), source))

@@ -29,6 +29,10 @@ SEGMENT_HEADINGS = {
     "data_distance_km": "farthest data used (km)", "data_age_h": "oldest data used (h)",
     "best_altitude_ft": "best altitude (ft)", "best_accretion_mm": "accretion at the best altitude (mm)",
     "sources": "reports used",
+    "p_light": "share of members light or worse", "p_moderate": "share of members moderate or worse",
+    "p_severe": "share of members severe or worse", "accretion_p10_mm": "accretion, 10th percentile of members (mm)",
+    "accretion_p90_mm": "accretion, 90th percentile of members (mm)",
+    "spread_driver": "assumption that moves the accretion most",
 }
 # The compact table: where (from, to, altitudes), when (times), how bad (minutes, accretion, intensity, type,
 # large drops), how sure (data). Everything else folds into the row's details.
@@ -36,7 +40,11 @@ COMPACT = ["segment", "start", "end", "start_time", "altitude_ft_min", "icing_mi
            "intensity", "ice_type", "large_drops", "data"]
 DETAILS = ["distance_nm", "max_rate_mm_per_h", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
            "supercooled_top_ft", "warm_surface_minutes", "appendix_c", "appendix_o", "data_distance_km",
-           "data_age_h", "best_altitude_ft", "best_accretion_mm", "sources"]
+           "data_age_h", "best_altitude_ft", "best_accretion_mm", "sources", "p_light", "p_moderate", "p_severe",
+           "accretion_p10_mm", "accretion_p90_mm", "spread_driver"]
+# With the spread ensemble (assess_route(spread=True)) the compact table also shows how sure: the share of members
+# at moderate or worse and the 10th-90th percentile range of accretion.
+SPREAD_COLUMNS = ("p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver")
 INTENSITY_WORDS = ("none", "trace", "light", "moderate", "severe", "unknown")
 DATA_WORDS = ("ok", "partial", "missing")
 
@@ -273,6 +281,7 @@ def _glance(assessment) -> list[str]:
     best = s.get("best_altitude_plan_accretion_mm")
     cards.append(("at the best altitudes", f"<b>{_e(_fmt(best, 'accretion_mm'))} mm</b>"
                   if not _missing(best) else "n/a: a segment has no alternative with full data"))
+    cards += _spread_card(s)
     notes = [f"<li>{_e(n)}</li>" for n in s.get("notes") or []]
     return ['<section class="glance" aria-label="at a glance">'] + [
         f'<div class="card"><span class="k">{_e(k)}</span>{v}</div>' for k, v in cards] + ["</section>"] + (
@@ -285,7 +294,9 @@ def _detail_items(row) -> list[tuple[str, str]]:
         if c not in row:
             continue
         v = row[c]
-        if c == "sources":
+        if c in ("p_light", "p_moderate", "p_severe"):
+            text = "unknown" if _missing(v) else f"{100 * float(v):.0f} %"
+        elif c == "sources":
             labels = [x.strip() for x in str(v).split(";") if x.strip()] if not _missing(v) else []
             text = ", ".join(labels) if labels else "none (no usable data)"
         else:
@@ -314,6 +325,9 @@ def _segment_table(assessment) -> list[str]:
     heads = [("#", ""), ("from", "t"), ("to", "t"), ("time (UTC)", "t"), ("altitude (ft)", ""),
              ("minutes in icing", ""), ("accretion (mm)", ""), ("intensity", "t"), ("ice type", "t"),
              ("large drops", "t"), ("data", "t")]
+    spread = all(c in seg for c in SPREAD_COLUMNS)
+    if spread:
+        heads[8:8] = [("moderate+ share", ""), ("10–90 % (mm)", "")]
     out = ['<table id="segments"><thead><tr>' + "".join(f'<th class="{c}">{_e(h)}</th>' for h, c in heads)
            + "</tr></thead><tbody>"]
     for row in seg.to_dict(orient="records"):
@@ -329,8 +343,11 @@ def _segment_table(assessment) -> list[str]:
                                                                       "unknown")) + ("*" if partial else ""), ""),
                  ("accretion mm", "unknown" if blank else _e(_fmt(row.get("accretion_mm"), "accretion_mm", "unknown"))
                   + ("*" if partial else ""), ""),
-                 ("intensity", _intensity_badge(word, data), "t st"),
-                 ("ice type", _e(_word(row.get("ice_type"))), "t"),
+                 ("intensity", _intensity_badge(word, data), "t st")]
+        if spread:
+            cells += [("moderate or worse", _e(_share(row.get("p_moderate"))), ""),
+                      ("accretion 10-90 % mm", "unknown" if blank else _e(_range(row)), "")]
+        cells += [("ice type", _e(_word(row.get("ice_type"))), "t"),
                  ("large drops", _e(_word(row.get("large_drops"))), "t"),
                  ("data", _data_badge(data), "t st")]
         out.append(f'<tr class="seg r-{_e(data)}" data-segment="{_e(row["segment"])}" data-data="{_e(data)}" '
@@ -346,6 +363,29 @@ def _segment_table(assessment) -> list[str]:
                f'{_data_badge("missing")} · * at least this much: found in the part of the segment with data, '
                "the rest unknown.</p>")
     return out
+
+
+def _share(v) -> str:
+    return "unknown" if _missing(v) else f"{100 * float(v):.0f} %"
+
+
+def _range(row) -> str:
+    lo, hi = row.get("accretion_p10_mm"), row.get("accretion_p90_mm")
+    if _missing(lo) or _missing(hi):
+        return "unknown"
+    star = "*" if _word(row.get("data"), "missing") == "partial" else ""
+    return f"{_fmt(lo, 'accretion_mm')}–{_fmt(hi, 'accretion_mm')}{star}"
+
+
+def _spread_card(s) -> list[tuple[str, str]]:
+    sp = s.get("spread")
+    if not isinstance(sp, dict):
+        return []
+    lo, hi = sp.get("accretion_p10_mm"), sp.get("accretion_p90_mm")
+    rng = "unknown (a member has no data)" if _missing(lo) or _missing(hi) else \
+        f"{_fmt(lo, 'accretion_mm')}–{_fmt(hi, 'accretion_mm')} mm"
+    return [("how sure", f"<b>{_e(_share(sp.get('p_moderate')))}</b> of {_e(sp.get('members', '?'))} members "
+             f"moderate or worse; accretion {_e(rng)} (10–90 %); moved most by {_e(sp.get('driver', '?'))}")]
 
 
 def report_html(assessment, images: dict[str, str], source=None) -> str:
@@ -475,6 +515,12 @@ def write_html(assessment, out_dir, source=None, *, soundings=True, progress=Non
              lambda: cross_section_figure(assessment, source)),
             ("segment_chart.png", "Per segment: accretion and minutes in icing, plan against best alternative "
              "altitude.", lambda: segment_chart_figure(assessment))]
+    from icing.report.spread_figure import has_spread, spread_figure
+
+    if has_spread(assessment):
+        jobs.append(("how_sure.png", "How sure: per segment the share of ensemble members at light, moderate and "
+                     "severe or worse, and the 10th-90th percentile of accretion with the chain's own answer; "
+                     "hatched: no data (unknown, not clear air).", lambda: spread_figure(assessment)))
     if soundings and _is_soundings(source) and hasattr(source, "diagnostics"):
         used = set(_used_labels(assessment))
         profiles = getattr(source, "profiles", None)

@@ -36,19 +36,55 @@ def _intensity(word, data):
     return shown + "*" if _word(data) == "partial" and word != "unknown" else shown
 
 
+SPREAD_COLUMNS = ("p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver")
+
+
+def _share(v):
+    return "-" if is_missing(v) else f"{100 * float(v):.0f}%"
+
+
+def _spread_cells(r, partial):
+    """How sure (with the spread ensemble): share of members at moderate or worse, accretion 10-90 % range."""
+    lo, hi = r.accretion_p10_mm, r.accretion_p90_mm
+    rng = "-" if is_missing(lo) or is_missing(hi) else f"{_num(lo)}-{_num(hi)}" + ("*" if partial else "")
+    return [_share(r.p_moderate), rng]
+
+
+def _spread_lines(s):
+    sp = s.get("spread")
+    if not isinstance(sp, dict):
+        return []
+    lo, hi = sp.get("accretion_p10_mm"), sp.get("accretion_p90_mm")
+    rng = "UNKNOWN (a member has a segment without data)" if is_missing(lo) or is_missing(hi) else \
+        f"{_num(lo)}-{_num(hi)} mm"
+    return [f"How sure: {sp.get('members')} members (seed {sp.get('seed')}) across the chain's assumptions: "
+            f"{_share(sp.get('p_light'))} light or worse, {_share(sp.get('p_moderate'))} moderate or worse, "
+            f"{_share(sp.get('p_severe'))} severe; total accretion {rng} (10th-90th percentile); moved most by "
+            f"{sp.get('driver')}. 'mod+ %' is the share of members at moderate or worse (a member without data "
+            "counts at every intensity), 'mm 10-90' the range of the segment's accretion."]
+
+
 def segment_table(assessment) -> str:
-    """A fixed-width table, one line a segment, then the summary and the caution."""
+    """A fixed-width table, one line a segment, then the summary and the caution.
+
+    With the spread ensemble (``assess_route(..., spread=True)``) two columns follow the intensity: the share of
+    members at moderate or worse and the 10th-90th percentile of accretion; without it the table is unchanged.
+    """
     seg = assessment.segments
     s = assessment.summary
+    spread = all(c in seg for c in SPREAD_COLUMNS)
     head = ["#", "from", "to", "start UTC", "nm", "altitude ft", "icing min", "max mm/h", "ice mm", "intensity",
             "type", "large drops", "data", "best alt ft", "best mm"]
+    if spread:
+        head[10:10] = ["mod+ %", "mm 10-90"]
     rows = []
     for r in seg.itertuples():
         blank = _word(r.data, "missing") == "missing"  # nothing known there: a dash, never a 0 that reads as clear
+        extra = _spread_cells(r, _word(r.data) == "partial") if spread else []
         rows.append([str(r.segment), _word(r.start), _word(r.end), _hhmm(r.start_time), _num(r.distance_nm, 0),
                      _alt(r.altitude_ft_min, r.altitude_ft_max), "-" if blank else _num(r.icing_minutes, 0),
                      "-" if blank else _num(r.max_rate_mm_per_h), "-" if blank else _num(r.accretion_mm),
-                     _intensity(r.intensity, r.data),
+                     _intensity(r.intensity, r.data), *extra,
                      _word(r.ice_type), _word(r.large_drops), _word(r.data, "missing"),
                      _num(r.best_altitude_ft, 0), _num(r.best_accretion_mm)])
     widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h) for i, h in enumerate(head)]
@@ -71,6 +107,7 @@ def segment_table(assessment) -> str:
                    f"{bound}{_num(s.get('total_accretion_mm'))} mm on the reference body; worst: "
                    + (f"segment {s['worst_segment']} ({s['worst_intensity']})" if s["worst_segment"] else
                       s["worst_intensity"]) + ".")
+    out += _spread_lines(s)
     for note in s.get("notes") or []:
         out.append(f"Note: {note}")
     best = s.get("best_altitude_plan_accretion_mm")
