@@ -23,6 +23,7 @@ EXPECTED = [
     "02_drop_size_and_speed.ipynb",
     "03_screening_a_route.ipynb",
     "04_model_grid.ipynb",
+    "05_how_sure.ipynb",  # issue 18: how sure is this forecast (the spread ensemble)
 ]
 CELL_TIMEOUT_S = 180
 # What the caution must say (project rule): advisory only, not a certified forecast, and defer to official
