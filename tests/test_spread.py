@@ -278,3 +278,11 @@ def test_spread_figure_marks_missing_and_carries_the_caution(source):
     assert sum("no data:\nunknown" in t for t in texts) == 2  # both panels of the segment without data
     with pytest.raises(Exception, match="spread=True"):
         spread_figure(assess_route(route(ROUTE_PTS[:2], "FL080"), source))
+
+
+def test_result_repr_says_how_sure(source):
+    """The Assessment's short view names the spread when there is one (and unknown stays unknown)."""
+    res = assess_route(route(ROUTE_PTS, "FL080"), source, spread=True, members=6)
+    text = repr(res)
+    assert "how sure:" in text and "100% of 6 members moderate or worse" in text and "accretion range unknown" in text
+    assert "how sure" not in repr(assess_route(route(ROUTE_PTS[:2], "FL080"), source))

@@ -110,6 +110,13 @@ class Assessment:
                 ("in icing", at_least + _num(s.get("total_icing_minutes"), "{:.0f} min")),
                 ("accretion", at_least + _num(s.get("total_accretion_mm"), "{:.1f} mm")),
                 ("worst", worst_text), ("data", data)]
+        sp = s.get("spread")
+        if isinstance(sp, dict):  # the spread ensemble (assess_route(..., spread=True))
+            lo, hi = _num(sp.get("accretion_p10_mm"), "{:.1f}"), _num(sp.get("accretion_p90_mm"), "{:.1f}")
+            rng = "accretion range unknown (a member has no data)" if "unknown" in (lo, hi) else \
+                f"accretion {lo}-{hi} mm (10-90 %)"
+            rows.append(("how sure", f"{_num(sp.get('p_moderate'), '{:.0%}')} of {sp.get('members')} members "
+                         f"moderate or worse; {rng}; moved most by {sp.get('driver')}"))
         for note in s.get("notes") or []:
             rows.append(("note", str(note)))
         return rows

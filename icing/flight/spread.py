@@ -97,7 +97,9 @@ ASSUMPTIONS = (
         "multiplier on the airmass's droplet number concentration (icing.physics.microphysics.DROPLET_NUMBER or "
         "the number given); the MVD follows from LWC = (pi/6) rho_w N D^3, so it moves by the factor^(-1/3)",
         "Miles, Verlinde and Clothiaux (2000), J. Atmos. Sci. 57, 295-311: standard deviations about 60 % of the "
-        "mean concentrations (marine 74 +- 45, continental 288 +- 159 per cm3, from memory)"),
+        "mean concentrations (marine 74 +- 45, continental 288 +- 159 per cm3, from memory); for supercooled "
+        "stratiform cloud the diagnosis's derivation from Korolev et al. (2003, 2007) spans 155-270 per cm3 "
+        "(icing.physics.microphysics.DROPLET_NUMBER): a factor of two either way covers both"),
     Assumption(
         "cold_limit_shift", 0.0, 0.0, 5.0, "K", "uniform",
         "the cold limit of supercooled liquid moved warmer by this many kelvin (with it the liquid fraction of "
@@ -270,22 +272,23 @@ def _cold_limit_k(value):
 
 
 def _base_options(source, options):
-    """The diagnosis options of the source: those given to assess_route, else read back from its
-    diagnostics (cold limit, airmass; the cloud thresholds are then the published ones)."""
-    if options is not None:
-        return dict(options), []
-    stored = getattr(source, "diagnose_options", None)
-    if stored is not None:
-        return dict(stored), []
+    """The diagnosis options of the source: its cold limit and airmass as its diagnostics record them, and the
+    cloud thresholds given to assess_route (or kept by the source as ``diagnose_options``); without either the
+    thresholds are taken as published, and a note says so."""
     attrs = source.diagnostics.attrs
     opts = {"cold_limit": float(attrs.get("cold_limit", -40.0))}
-    airmass = str(attrs.get("airmass", "continental"))
-    try:
-        opts["airmass"] = float(airmass)
-    except ValueError:
-        opts["airmass"] = airmass
-    return opts, ["the source was built beforehand: its cold limit and airmass are read back from its "
-                  "diagnostics and the cloud thresholds taken as published"]
+    airmass = attrs.get("airmass")
+    if airmass is not None:
+        try:
+            opts["airmass"] = float(airmass)
+        except ValueError:
+            opts["airmass"] = str(airmass)
+    given = options if options is not None else getattr(source, "diagnose_options", None)
+    if given is None:
+        return opts, ["the source was built beforehand: its cold limit and airmass are read back from its "
+                      "diagnostics and the cloud thresholds taken as published"]
+    opts.update({k: v for k, v in dict(given).items() if v is not None and k not in ("cold_limit", "airmass")})
+    return opts, []
 
 
 class _Diagnoser:
@@ -298,7 +301,8 @@ class _Diagnoser:
         opts = dict(options)
         cold = opts.pop("cold_limit", None)
         self.cold_limit = _cold_limit_k(-40.0 if cold is None else cold)  # degC as in assess_route
-        self.airmass = opts.pop("airmass", None) or "continental"
+        # the source's diagnostics record their airmass; the fallback is the diagnosis's own default
+        self.airmass = opts.pop("airmass", None) or getattr(microphysics, "DEFAULT_AIRMASS", "continental")
         self.thresholds = {k: v for k, v in opts.items() if k in cloud.CLOUD_DEFAULTS and v is not None}
         self.n_drop = microphysics.droplet_number_concentration(self.airmass)
         prof = source.profiles
@@ -325,8 +329,8 @@ class _Diagnoser:
                 th["liquid_rh"] = float(th["liquid_rh"]) + shift
         return th
 
-    def _run(self, shift, cold_shift, adiabatic=False):
-        key = (shift, cold_shift, adiabatic)
+    def _run(self, shift, cold_shift, number_factor=1.0, adiabatic=False):
+        key = (shift, cold_shift, number_factor, adiabatic)
         if key not in self._cache:
             from icing.physics.diagnose import diagnose_arrays
 
@@ -334,21 +338,23 @@ class _Diagnoser:
             if adiabatic:  # the adiabatic LWC (times the liquid fraction): the cap of a member's LWC
                 th.update(stratiform_factor=1.0, convective_factor=1.0)
             cold = min(self.cold_limit + cold_shift, thermo.T0 - 0.1)
-            self._cache[key] = diagnose_arrays(*self.inputs, cold_limit=cold, airmass=self.airmass, threads=1, **th)
+            # the member's droplet number (per cm3) reaches the kernel's warm-rain (drizzle) criterion too
+            airmass = self.airmass if number_factor == 1.0 else self.n_drop * number_factor / 1e6
+            self._cache[key] = diagnose_arrays(*self.inputs, cold_limit=cold, airmass=airmass, threads=1, **th)
         return self._cache[key]
 
     def fields(self, shift=0.0, cold_shift=0.0, lwc_factor=1.0, number_factor=1.0):
         """The fields a source samples, for one member's assumptions."""
-        if shift == 0.0 and cold_shift == 0.0:
+        if shift == 0.0 and cold_shift == 0.0 and number_factor == 1.0:
             out = dict(self.base)  # the source's own diagnosis: the deterministic answer, bit for bit
         else:
-            d = self._run(shift, cold_shift)
+            d = self._run(shift, cold_shift, number_factor)
             out = {**self.base, **{k: d[k] for k in ("lwc", "mvd", "rh_water", "supercooled", "in_cloud",
                                                       "large_drop", "warm_layer_aloft")}}
         if lwc_factor != 1.0 or number_factor != 1.0:
             lwc = np.asarray(out["lwc"], dtype=float)
             if lwc_factor > 1.0:  # held to the adiabatic value (a factor below 1 cannot pass it)
-                cap = self._run(shift, cold_shift, adiabatic=True)["lwc"]
+                cap = self._run(shift, cold_shift, number_factor, adiabatic=True)["lwc"]
                 scaled = np.minimum(lwc * lwc_factor, cap)
             else:
                 scaled = lwc * lwc_factor
@@ -356,7 +362,7 @@ class _Diagnoser:
                 if self.model_liquid is not None:
                     scaled = np.where(self.model_liquid, lwc, scaled)
                 lwc = np.where(np.isfinite(lwc), scaled, lwc)
-            with np.errstate(invalid="ignore"):
+            with np.errstate(invalid="ignore"):  # the airmass's own spectral shape with the member's number
                 mvd = microphysics.median_volume_diameter(
                     np.where(np.isfinite(lwc), lwc, 0.0) / 1000.0, self.airmass,
                     number_concentration=self.n_drop * number_factor) * 1e6
