@@ -258,11 +258,21 @@ class _MemberSource(SoundingSource):
 
 
 class _Fields(dict):
-    """Diagnosed fields (profile, level) as plain arrays, read like a Dataset by the source's columns."""
+    """A member's diagnosed fields (profile, level) as plain arrays, read like a Dataset by the source's
+    columns; any field the member does not change is the source's own (every field the source reads)."""
 
-    def __init__(self, arrays):
+    def __init__(self, arrays, base):
         super().__init__({k: SimpleNamespace(values=v) for k, v in arrays.items()})
-        self.sizes = {"profile": next(iter(arrays.values())).shape[0]}
+        self.base = base
+        self.sizes = {"profile": base.sizes["profile"]}
+
+    def __missing__(self, name):
+        value = SimpleNamespace(values=self.base[name].values)
+        self[name] = value
+        return value
+
+    def __contains__(self, name):
+        return dict.__contains__(self, name) or name in self.base
 
 
 def _cold_limit_k(value):
@@ -315,9 +325,9 @@ class _Diagnoser:
             self.inputs.append(cl)
             self.model_liquid = np.isfinite(cl)
         d = source.diagnostics
-        self.base = {k: np.asarray(d[k].transpose("profile", "level").values) for k in
-                     ("pressure", "height", "temperature", "lwc", "mvd", "rh_water", "supercooled", "in_cloud",
-                      "valid", "large_drop", "warm_layer_aloft")}
+        # the level fields a member's diagnosis replaces: every kernel output the source's diagnostics hold
+        self.levels = {k for k in d.data_vars if d[k].dims == ("profile", "level")}
+        self.diagnostics = d
         self._cache = {}
 
     def _settings(self, shift):
@@ -346,13 +356,12 @@ class _Diagnoser:
     def fields(self, shift=0.0, cold_shift=0.0, lwc_factor=1.0, number_factor=1.0):
         """The fields a source samples, for one member's assumptions."""
         if shift == 0.0 and cold_shift == 0.0 and number_factor == 1.0:
-            out = dict(self.base)  # the source's own diagnosis: the deterministic answer, bit for bit
+            out = {}  # the source's own diagnosis: the deterministic answer, bit for bit
         else:
             d = self._run(shift, cold_shift, number_factor)
-            out = {**self.base, **{k: d[k] for k in ("lwc", "mvd", "rh_water", "supercooled", "in_cloud",
-                                                      "large_drop", "warm_layer_aloft")}}
+            out = {k: v for k, v in d.items() if k in self.levels}
         if lwc_factor != 1.0 or number_factor != 1.0:
-            lwc = np.asarray(out["lwc"], dtype=float)
+            lwc = np.asarray(out["lwc"] if "lwc" in out else self.diagnostics["lwc"].values, dtype=float)
             if lwc_factor > 1.0:  # held to the adiabatic value (a factor below 1 cannot pass it)
                 cap = self._run(shift, cold_shift, number_factor, adiabatic=True)["lwc"]
                 scaled = np.minimum(lwc * lwc_factor, cap)
@@ -368,7 +377,7 @@ class _Diagnoser:
                     number_concentration=self.n_drop * number_factor) * 1e6
             out["lwc"] = lwc
             out["mvd"] = mvd
-        return _Fields(out)
+        return _Fields(out, self.diagnostics)
 
 
 # --- the ensemble -----------------------------------------------------------------------------------------------
