@@ -1,6 +1,7 @@
 """How sure: the spread ensemble (icing.flight.spread) against the deterministic chain and published method."""
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -20,6 +21,7 @@ from icing.flight.spread import (
 )
 from icing.profile import build_profile
 
+DEMO_MODEL = Path(__file__).parents[1] / "sample_soundings" / "model" / "demo_model.nc"
 P = np.array([1000.0, 950.0, 900.0, 850.0, 800.0, 750.0, 700.0, 650.0, 600.0, 500.0, 400.0, 300.0])
 ZERO = {a.name: 0 for a in ASSUMPTIONS}
 
@@ -286,3 +288,66 @@ def test_result_repr_says_how_sure(source):
     text = repr(res)
     assert "how sure:" in text and "100% of 6 members moderate or worse" in text and "accretion range unknown" in text
     assert "how sure" not in repr(assess_route(route(ROUTE_PTS[:2], "FL080"), source))
+
+
+# --- a model ensemble -------------------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def ensemble_file(tmp_path_factory):
+    """Three members along a CF ``realization`` dimension built from the demo model grid (our own scenario):
+    the run itself, a drier copy (relative humidity halved: no cloud) and the run again."""
+    import xarray as xr
+
+    ds = xr.open_dataset(DEMO_MODEL).load()
+    dry = ds.copy()
+    dry["hur"] = ds["hur"] * 0.5
+    ens = xr.concat([ds, dry, ds], dim="realization").assign_coords(realization=[0, 1, 2])
+    path = tmp_path_factory.mktemp("ens") / "ensemble.nc"
+    ens.to_netcdf(path)
+    return path
+
+
+def demo_route():
+    return Route.from_points([("ALDRN", 52.05, -34.10, "FL080"), ("BRNCK", 53.00, -31.00, "FL080"),
+                              ("CULLN", 54.00, -28.00, "FL080")], departure="2026-01-15T05:00Z")
+
+
+def test_model_ensemble_members_are_the_ensemble(ensemble_file):
+    """A model file with a member dimension is an ensemble as it stands (issue 18): each member screened alone
+    (a GridSource of that member) gives the intensity and accretion the ensemble's shares and percentiles are
+    made of; without spread the ensemble screens as its first member."""
+    import xarray as xr
+
+    from icing.flight.gridsource import GridSource
+    from icing.flight.spread import ModelEnsemble
+    from icing.io.model import normalise_model
+
+    ens_src = ModelEnsemble(ensemble_file)
+    assert len(ens_src.members) == 3 and ens_src.member_dim == "realization"
+    rt = demo_route()
+    raw = xr.open_dataset(ensemble_file).load()
+    singles = [assess_route(rt, GridSource(normalise_model(raw.isel(realization=i)))) for i in range(3)]
+    ens = assess_route(rt, ens_src, spread=True)
+    plain = assess_route(rt, ens_src)
+    assert plain.segments.equals(singles[0].segments)
+    for k, lvl in (("p_light", "light"), ("p_moderate", "moderate"), ("p_severe", "severe")):
+        want = np.mean([(s.segments["intensity"] >= lvl).to_numpy() for s in singles], axis=0)
+        assert_allclose(ens.segments[k].to_numpy(), want, rtol=1e-12, err_msg=k)
+    acc = np.array([s.segments["accretion_mm"].to_numpy() for s in singles])
+    assert_allclose(ens.segments["accretion_p10_mm"].to_numpy(), np.percentile(acc, 10, axis=0), rtol=1e-12)
+    assert_allclose(ens.segments["accretion_p90_mm"].to_numpy(), np.percentile(acc, 90, axis=0), rtol=1e-12)
+    assert (acc[1] == 0).all() and (acc[0] > 0).any()  # the dry member has no ice, the run has some
+    assert set(ens.segments["spread_driver"]) <= {"model_member", "none"}
+    s = ens.summary["spread"]
+    assert s["members"] == 3 and s["model_members"] == ["0", "1", "2"] and s["assumptions"] == {}
+
+
+def test_model_without_members_is_refused(tmp_path):
+    from icing.flight.spread import ModelEnsemble
+
+    with pytest.raises(ConfigError, match="ensemble-member dimension"):
+        ModelEnsemble(DEMO_MODEL)
+    from icing.flight.gridsource import GridSource
+
+    with pytest.raises(ConfigError, match="not spread yet"):
+        assess_route(demo_route(), GridSource(DEMO_MODEL), spread=True)

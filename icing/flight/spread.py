@@ -31,13 +31,17 @@ Method (documented choices)
   matching weights are computed once and re-weighted per member; the members' samples are scored in one
   vectorised call of the accretion model. Only the planned altitude is sampled (no alternatives).
 
-Only sounding sources (:class:`icing.flight.sources.SoundingSource`) can be spread this way; a model grid's
-ensemble-member dimension is not read yet (see the README).
+Sounding sources (:class:`icing.flight.sources.SoundingSource`) are spread over the assumptions. A model file
+with an ensemble-member dimension is an ensemble as it stands: :class:`ModelEnsemble` reads it as one
+:class:`icing.flight.gridsource.GridSource` per member, and ``spread=True`` then takes its members as the
+ensemble (the diagnosis's assumptions are not varied on a grid: each member's grid would be diagnosed again for
+each draw). A single model grid is not spread.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
@@ -47,8 +51,8 @@ from icing.errors import ConfigError
 from icing.flight.sources import SoundingSource
 from icing.physics import cloud, microphysics, thermo
 
-__all__ = ["Assumption", "ASSUMPTIONS", "SPREAD_COLUMNS", "DISTANCE_FLOOR_M", "assumption_table", "draw_members",
-           "resolve_ranges", "member_weights", "route_spread", "spread_summary"]
+__all__ = ["Assumption", "ASSUMPTIONS", "SPREAD_COLUMNS", "DISTANCE_FLOOR_M", "MEMBER_DIMS", "ModelEnsemble",
+           "assumption_table", "draw_members", "resolve_ranges", "member_weights", "route_spread", "spread_summary"]
 
 SPREAD_COLUMNS = ["p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver"]
 # The floor of the inverse-distance weighting of icing.flight.sources.SoundingSource.weights (10 km); the
@@ -56,6 +60,8 @@ SPREAD_COLUMNS = ["p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accr
 DISTANCE_FLOOR_M = 1.0e4
 UNKNOWN_CODE = 5  # segment intensity code of "unknown" (after severe = 4), as in the segment table
 LEVELS = {"p_light": 2, "p_moderate": 3, "p_severe": 4}  # codes of icing.flight.assess.INTENSITIES
+# Names of an ensemble-member dimension: CF's realization (standard_name), cfgrib's number, and common others.
+MEMBER_DIMS = ("realization", "member", "number", "ensemble_member", "ensemble")
 
 
 @dataclass(frozen=True)
@@ -380,6 +386,65 @@ class _Diagnoser:
         return _Fields(out, self.diagnostics)
 
 
+# --- a model ensemble ------------------------------------------------------------------------------------------
+
+class ModelEnsemble:
+    """A model file (or Dataset) with an ensemble-member dimension as an atmosphere source.
+
+    Each member is read as its own :class:`icing.flight.gridsource.GridSource` (the same reading, checks and
+    diagnosis as a single model file). As a source it samples the first member (the control in the usual
+    numbering; ``summary["notes"]`` of a screening does not change); with ``assess_route(..., spread=True)`` every
+    member is one member of the ensemble.
+
+    Parameters
+    ----------
+    model : path or xarray.Dataset
+        A netCDF file (CF names, as :func:`icing.io.model.read_model` reads) or a Dataset already opened (e.g.
+        GRIB through cfgrib), whose fields have a member dimension.
+    member_dim : str, optional
+        Its name; by default the first of :data:`MEMBER_DIMS` present.
+    options :
+        Passed to each :class:`~icing.flight.gridsource.GridSource` (``cold_limit``, ``airmass``, thresholds,
+        ``time_tolerance_hours``).
+    """
+
+    kind = "model ensemble"
+
+    def __init__(self, model, *, member_dim=None, **options):
+        import xarray as xr
+
+        from icing.errors import SoundingFormatError
+        from icing.flight.gridsource import GridSource
+        from icing.io.model import normalise_model
+
+        name = ""
+        if isinstance(model, str | Path):
+            name = str(model)
+            if not Path(model).exists():
+                raise SoundingFormatError("no such model file", file=model)
+            model = xr.open_dataset(model).load()
+        dim = member_dim or next((d for d in MEMBER_DIMS if d in model.dims), None)
+        if dim is None or dim not in model.dims:
+            raise ConfigError(f"{name or 'the model'} has no ensemble-member dimension (looked for "
+                              f"{member_dim or ', '.join(MEMBER_DIMS)}; it has {', '.join(map(str, model.dims))})")
+        n = model.sizes[dim]
+        values = model[dim].values if dim in model.coords else np.arange(n)
+        self.member_dim = dim
+        self.member_labels = [str(v) for v in values]
+        name = name or str(model.attrs.get("source", "") or "")
+        self.members = [GridSource(normalise_model(model.isel({dim: i}), source=name), **options)
+                        for i in range(n)]
+        control = self.members[0]
+        self.labels, self.diagnostics, self.model = control.labels, control.diagnostics, control.model
+        self.time_s = control.time_s
+        self.notes = [f"model ensemble of {n} members ({dim} {', '.join(self.member_labels)}); a screening "
+                      f"without spread samples the first, {dim} {self.member_labels[0]}"]
+
+    def sample(self, latitude, longitude, time, pressure=None, height=None):
+        """The first member's :meth:`~icing.flight.gridsource.GridSource.sample`."""
+        return self.members[0].sample(latitude, longitude, time, pressure=pressure, height=height)
+
+
 # --- the ensemble -----------------------------------------------------------------------------------------------
 
 def _spearman(x, y):
@@ -443,9 +508,12 @@ def route_spread(source, points, outcome, *, members=30, seed=0, ranges=None, op
         ``columns`` (the :data:`SPREAD_COLUMNS` per segment, arrays), ``codes`` and ``accretion`` (members,
         segments), ``draws`` (name -> values), ``ranges`` and ``notes``.
     """
+    if isinstance(source, ModelEnsemble):
+        return _model_spread(source, points, outcome)
     if not isinstance(source, SoundingSource):
-        raise ConfigError("spread=True needs soundings (a SoundingSource): the assumptions it varies are those of "
-                          f"the diagnosis from soundings, and a {type(source).__name__} is not spread yet")
+        raise ConfigError("spread=True needs soundings (a SoundingSource) or a model ensemble (ModelEnsemble): "
+                          "the assumptions it varies are those of the diagnosis from soundings, and a "
+                          f"{type(source).__name__} is not spread yet")
     m = _check_members(members)
     bounds = resolve_ranges(ranges)
     draws = draw_members(m, seed, ranges)
@@ -466,6 +534,15 @@ def route_spread(source, points, outcome, *, members=30, seed=0, ranges=None, op
                            time_nearest=draws["time_nearest"][i])
         runs.append(_MemberSource(source, fields).sample(lat, lon, times, pressure=points["pressure"],
                                                          height=points["height"], weights=(w, dist)))
+    codes, accretion, cols = _score(runs, outcome)
+    cols["spread_driver"], _ = _drivers(draws, accretion, codes)
+    return {"columns": cols, "codes": codes, "accretion": accretion, "draws": draws, "ranges": bounds,
+            "members": m, "seed": int(seed), "notes": notes}
+
+
+def _score(runs, outcome):
+    """Codes and accretion (members, segments) of the members' sample runs, and the shares and percentiles."""
+    m = len(runs)
     atm = {k: np.concatenate([r[k] for r in runs]) for k in runs[0] if k != "used"}
     codes, accretion = outcome(atm, m)
     codes = np.asarray(codes).reshape(m, -1)
@@ -474,9 +551,22 @@ def route_spread(source, points, outcome, *, members=30, seed=0, ranges=None, op
     with np.errstate(invalid="ignore"):
         p10, p90 = np.percentile(accretion, [10.0, 90.0], axis=0)  # NaN where any member has no data
     cols["accretion_p10_mm"], cols["accretion_p90_mm"] = p10, p90
-    cols["spread_driver"], _ = _drivers(draws, accretion, codes)
-    return {"columns": cols, "codes": codes, "accretion": accretion, "draws": draws, "ranges": bounds,
-            "members": m, "seed": int(seed), "notes": notes}
+    return codes, accretion, cols
+
+
+def _model_spread(source, points, outcome):
+    """The members of a model ensemble, each sampled along the route: the ensemble as it stands."""
+    runs = [g.sample(points["latitude"], points["longitude"], points["time"], pressure=points["pressure"],
+                     height=points["height"]) for g in source.members]
+    codes, accretion, cols = _score(runs, outcome)
+    moved = (np.ptp(np.nan_to_num(accretion), axis=0) > 0) | (np.ptp(codes, axis=0) > 0)
+    driver = np.where(moved, "model_member", "none").astype(object)
+    driver[~np.isfinite(accretion).all(axis=0)] = "unknown"
+    cols["spread_driver"] = driver
+    return {"columns": cols, "codes": codes, "accretion": accretion, "draws": {}, "ranges": {},
+            "members": len(runs), "seed": None, "model_members": list(source.member_labels),
+            "notes": ["the members are the model's own ensemble members; the diagnosis's assumptions are not "
+                      "varied on a model grid (members and seed are not used)"]}
 
 
 def spread_summary(result, segments) -> dict:
@@ -492,14 +582,20 @@ def spread_summary(result, segments) -> dict:
     total = acc.sum(axis=1)  # NaN when any segment of that member has no data
     with np.errstate(invalid="ignore"):
         p10, p50, p90 = np.percentile(total, [10.0, 50.0, 90.0]) if total.size else (np.nan,) * 3
-    driver, rho = _drivers(result["draws"], total[:, None], worst[:, None])
+    if result["draws"]:
+        driver, rho = _drivers(result["draws"], total[:, None], worst[:, None])
+    else:  # a model ensemble: the members themselves are what varies
+        moved = np.ptp(np.nan_to_num(total)) > 0 or np.ptp(worst) > 0
+        driver, rho = np.array(["model_member" if moved else "none"], dtype=object), {}
     unknown = int((codes == UNKNOWN_CODE).any(axis=1).sum())
     return {
         "members": result["members"], "seed": result["seed"],
-        "sampling": "Latin hypercube (one draw per equal-probability stratum of each range, numpy default_rng"
-                    "(seed)); log-uniform for factors",
+        "sampling": ("Latin hypercube (one draw per equal-probability stratum of each range, numpy default_rng"
+                     "(seed)); log-uniform for factors") if result["draws"] else "the model's ensemble members",
         "assumptions": {a.name: {**a.as_dict(), "low": result["ranges"][a.name][0],
-                                 "high": result["ranges"][a.name][1]} for a in ASSUMPTIONS},
+                                 "high": result["ranges"][a.name][1]} for a in ASSUMPTIONS
+                        if a.name in result["ranges"]},
+        **({"model_members": result["model_members"]} if "model_members" in result else {}),
         "p_light": float((worst >= LEVELS["p_light"]).mean()),
         "p_moderate": float((worst >= LEVELS["p_moderate"]).mean()),
         "p_severe": float((worst >= LEVELS["p_severe"]).mean()),
