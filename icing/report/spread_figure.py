@@ -120,9 +120,10 @@ def spread_figure(assessment) -> Figure:
     sp = s.get("spread") or {}
     fig.suptitle(f"How sure: {s.get('route', '')}, aircraft {s.get('aircraft', '')}", fontsize=12, x=0.08,
                  ha="left", y=0.975)
-    fig.text(0.08, 0.915, f"{sp.get('members', '?')} members (seed {sp.get('seed', '?')}) drawn across the chain's "
-             "assumptions (cloud RH thresholds, LWC factor, droplet number, cold limit, time and distance weighting); "
-             "a member without data counts at every intensity", fontsize=7.5, color="#444444")
+    who = (f"{sp.get('members', '?')} model ensemble members" if sp.get("model_members") else
+           f"{sp.get('members', '?')} members (seed {sp.get('seed', '?')}) drawn across the chain's assumptions "
+           "(cloud RH thresholds, LWC factor, droplet number, cold limit, time and distance weighting)")
+    fig.text(0.08, 0.915, f"{who}; a member without data counts at every intensity", fontsize=7.5, color="#444444")
     fig.text(0.01, 0.006, "\n".join(textwrap.wrap(CAUTION, 190)), fontsize=6.5, color="#333333", va="bottom",
              ha="left")
     return fig

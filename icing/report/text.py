@@ -57,7 +57,9 @@ def _spread_lines(s):
     lo, hi = sp.get("accretion_p10_mm"), sp.get("accretion_p90_mm")
     rng = "UNKNOWN (a member has a segment without data)" if is_missing(lo) or is_missing(hi) else \
         f"{_num(lo)}-{_num(hi)} mm"
-    return [f"How sure: {sp.get('members')} members (seed {sp.get('seed')}) across the chain's assumptions: "
+    who = f"{sp.get('members')} model ensemble members" if sp.get("model_members") else \
+        f"{sp.get('members')} members (seed {sp.get('seed')}) across the chain's assumptions"
+    return [f"How sure: {who}: "
             f"{_share(sp.get('p_light'))} light or worse, {_share(sp.get('p_moderate'))} moderate or worse, "
             f"{_share(sp.get('p_severe'))} severe; total accretion {rng} (10th-90th percentile); moved most by "
             f"{sp.get('driver')}. 'mod+ %' is the share of members at moderate or worse (a member without data "
