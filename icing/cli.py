@@ -134,9 +134,10 @@ def _add_physics_options(p):
     p.add_argument("--cold-limit", type=float, default=DEFAULT_COLD_LIMIT_C, metavar="DEGC",
                    help="coldest temperature at which supercooled liquid is diagnosed, degC (default -40, near "
                    "homogeneous freezing); e.g. --cold-limit -30")
-    p.add_argument("--airmass", choices=["continental", "marine"], default="continental",
-                   help="droplet number concentration assumed for the droplet size (MVD): continental (more, "
-                   "smaller drops) or marine (fewer, larger); default continental; e.g. --airmass marine")
+    p.add_argument("--airmass", choices=["supercooled", "continental", "marine"], default="supercooled",
+                   help="droplet number concentration assumed for the droplet size (MVD) and for drizzle: "
+                   "supercooled (about 200 per cm3, measured in supercooled stratiform cloud; the default), "
+                   "continental (290: more, smaller drops) or marine (75: fewer, larger); e.g. --airmass marine")
 
 
 def _add_screen_options(sp):

@@ -31,7 +31,7 @@ from icing.physics.layers import CLOUD_DEFAULTS
 __all__ = ["GridSource"]
 
 _LEVEL_FIELDS = ("temperature", "height", "lwc", "mvd", "rh_water", "supercooled", "in_cloud", "valid",
-                 "large_drop")
+                 "large_drop", "large_drop_potential", "large_drop_reason")
 _COLUMN_FIELDS = ("freezing_level_m", "supercooled_top_m")
 _EPS = 1e-9
 
@@ -131,7 +131,8 @@ class GridSource:
             cols[name] = np.asarray(d[name].values, dtype=float).reshape(-1, nlev)
         cols["lwc"] = np.nan_to_num(cols["lwc"])
         cols["mvd"] = np.nan_to_num(cols["mvd"])
-        cols["large_drop"] = np.nan_to_num(cols["large_drop"])
+        for name in ("large_drop", "large_drop_potential", "large_drop_reason"):
+            cols[name] = np.nan_to_num(cols[name])
         if "wind_speed" in d and "wind_direction" in d:
             spd = np.asarray(d["wind_speed"].values, dtype=float).reshape(-1, nlev)
             dirn = np.radians(np.asarray(d["wind_direction"].values, dtype=float).reshape(-1, nlev))
@@ -260,6 +261,12 @@ class GridSource:
             la, lb, _ = lvl("large_drop")
             out["large_drop"] = np.where(covered > 0, np.max(np.where(ww > 0, np.maximum(la, lb), 0.0), axis=1),
                                          np.nan)
+            # the largest potential, with the reason where it is largest (potential x 4 + reason, as integers)
+            pa_, pb_, _ = lvl("large_drop_potential")
+            ra_, rb_, _ = lvl("large_drop_reason")
+            code = np.max(np.where(ww > 0, np.maximum(4 * pa_ + ra_, 4 * pb_ + rb_), 0.0), axis=1)
+            out["large_drop_potential"] = np.where(covered > 0, code // 4, np.nan)
+            out["large_drop_reason"] = np.where(covered > 0, code % 4, np.nan)
             for name in ("wind_u", "wind_v"):
                 if name in st:
                     v = lvl(name)[2]

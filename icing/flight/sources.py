@@ -143,7 +143,7 @@ class SoundingSource:
             ok = np.isfinite(p)
             col = {"lnp": -np.log(p[ok])}
             for name in ("height", "temperature", "lwc", "mvd", "rh_water", "supercooled", "in_cloud", "valid",
-                         "large_drop", "warm_layer_aloft"):
+                         "large_drop", "warm_layer_aloft", "large_drop_potential", "large_drop_reason"):
                 col[name] = np.asarray(d[name].values[j][ok], dtype=float)
             col["lwc"] = np.where(np.isfinite(col["lwc"]), col["lwc"], 0.0)
             col["mvd"] = np.where(np.isfinite(col["mvd"]), col["mvd"], 0.0)
@@ -231,6 +231,8 @@ class SoundingSource:
         dict of numpy arrays, one value per sample: ``coverage`` (fraction of the matching weight whose profiles
         had usable data at that altitude: 0 means no data), ``temperature`` (degC), ``pressure`` (Pa),
         ``lwc`` (g/m3), ``mvd`` (um), ``supercooled`` (0-1), ``in_cloud`` (0-1), ``large_drop`` (0, 1, 2),
+        ``large_drop_potential`` (0 none, 1 possible, 2 likely) and ``large_drop_reason`` (codes of
+        :data:`icing.physics.precipitation.LARGE_DROP_REASONS`, where the potential is largest),
         ``rh_water`` (%), ``wind_u``/``wind_v`` (m/s), ``freezing_level_m``, ``supercooled_top_m``,
         ``distance_km`` and ``age_h`` of the nearest data used, and ``sources`` (labels of the reports used).
         """
@@ -241,6 +243,7 @@ class SoundingSource:
                                         "pressure", "wind_u", "wind_v", "wind_w", "fz", "fz_w", "top", "top_w")}
         covered = np.zeros(n)
         large = np.zeros(n)
+        large_code = np.zeros(n)  # largest large-drop potential x 4 + the reason where it is largest
         dist_used = np.full(n, np.inf)
         age_used = np.full(n, np.inf)
         used_mask = np.zeros((n, w.shape[1]), dtype=bool)
@@ -286,6 +289,9 @@ class SoundingSource:
                     acc["wind_w"][rows] += np.where(wok, ww, 0.0)
             ld = np.maximum(np.nan_to_num(col["large_drop"][lo]), np.nan_to_num(col["large_drop"][hi]))
             large[rows] = np.maximum(large[rows], np.where(ok, ld, 0.0))
+            pot, why = np.nan_to_num(col["large_drop_potential"]), np.nan_to_num(col["large_drop_reason"])
+            code = np.maximum(4 * pot[lo] + why[lo], 4 * pot[hi] + why[hi])
+            large_code[rows] = np.maximum(large_code[rows], np.where(ok, code, 0.0))
             if np.isfinite(col["freezing_level_m"]):
                 acc["fz"][rows] += w[rows, j] * col["freezing_level_m"]
                 acc["fz_w"][rows] += w[rows, j]
@@ -307,6 +313,8 @@ class SoundingSource:
             out["supercooled_top_m"] = np.where(acc["top_w"] > 0, acc["top"] / acc["top_w"], np.nan)
         out["coverage"] = covered
         out["large_drop"] = np.where(covered > 0, large, np.nan)
+        out["large_drop_potential"] = np.where(covered > 0, large_code // 4, np.nan)
+        out["large_drop_reason"] = np.where(covered > 0, large_code % 4, np.nan)
         out["distance_km"] = np.where(np.isfinite(dist_used), dist_used / 1000.0, np.nan)
         out["age_h"] = np.where(np.isfinite(age_used), age_used, np.nan)
         out["used"] = used_mask

@@ -44,7 +44,8 @@ SUMMARY_OUTPUTS = ("freezing_level_m", "freezing_levels", "supercooled_base_m", 
                    "max_potential_intensity", "max_potential_rate")
 _DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool, "large_drop": np.int8,
            "cloud_kind": np.int8, "precipitation_type": np.int8, "freezing_level_count": np.int32,
-           "potential_intensity": np.int8, "ice_type": np.int8, "max_potential_intensity": np.int8}
+           "potential_intensity": np.int8, "ice_type": np.int8, "max_potential_intensity": np.int8,
+           "large_drop_potential": np.int8, "large_drop_reason": np.int8}
 _ATTRS = {
     "potential_rate": {"units": "mm/h", "long_name": "ice thickness growth rate on the aircraft's reference "
                        "body at cruise true airspeed (accretion potential; NaN unknown)"},
@@ -180,7 +181,7 @@ def _compiled_potential():
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
-              icing_certified=False, cold_limit=233.15, airmass="continental", **thresholds):
+              icing_certified=False, cold_limit=233.15, airmass="supercooled", **thresholds):
     """The whole chain on a block of columns, plain SI numpy in and out (shape (..., level)).
 
     Parameters
@@ -255,7 +256,7 @@ def _aircraft(aircraft, airspeed_kt=None):
     return ac, tas, float(ac.body_diameter_m)
 
 
-def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental",
+def diagnose_grid(model: xr.Dataset, aircraft=None, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="supercooled",
                   airspeed_kt=None, outputs=None, **thresholds) -> xr.Dataset:
     """Diagnostics, summaries and (with an aircraft) the accretion potential of a whole gridded profile Dataset.
 

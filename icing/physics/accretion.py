@@ -52,6 +52,8 @@ from icing.physics.thermo import (
     RD,
     RV,
     T0,
+    air_thermal_conductivity,
+    air_viscosity,
     saturation_vapor_pressure_ice,
     saturation_vapor_pressure_water,
 )
@@ -105,24 +107,15 @@ INTENSITY_NOTE = (
 
 # --------------------------------------------------------------------------------------------- air properties
 def air_viscosity_si(temperature):
-    """Dynamic viscosity of air, Pa s, at temperature (K).
-
-    Sutherland's law in the form of the U.S. Standard Atmosphere 1976, eq. (51):
-    :math:`\\mu = \\beta T^{3/2} / (T + S)`, beta = 1.458e-6 kg/(m s K^0.5), S = 110.4 K. Valid for the
-    lower atmosphere (about 150-500 K).
-    """
-    t = np.asarray(temperature, dtype=float)
-    return 1.458e-6 * t**1.5 / (t + 110.4)
+    """Dynamic viscosity of air, Pa s, at temperature (K): :func:`icing.physics.thermo.air_viscosity` (U.S.
+    Standard Atmosphere 1976, eq. 51) on floats or arrays."""
+    return air_viscosity(np.asarray(temperature, dtype=float))
 
 
 def air_thermal_conductivity_si(temperature):
-    """Thermal conductivity of air, W/(m K), at temperature (K).
-
-    U.S. Standard Atmosphere 1976, eq. (53): :math:`k = 2.64638\\times10^{-3} T^{3/2} / (T + 245.4 \\cdot
-    10^{-12/T})`, valid for the lower atmosphere.
-    """
-    t = np.asarray(temperature, dtype=float)
-    return 2.64638e-3 * t**1.5 / (t + 245.4 * 10.0 ** (-12.0 / t))
+    """Thermal conductivity of air, W/(m K), at temperature (K): :func:`icing.physics.thermo.air_thermal_conductivity`
+    (U.S. Standard Atmosphere 1976, eq. 53) on floats or arrays."""
+    return air_thermal_conductivity(np.asarray(temperature, dtype=float))
 
 
 def air_density_si(pressure, temperature):

@@ -42,7 +42,12 @@ CLOUD_DEFAULTS = {
     "stratiform_factor": None,       # constant LWC/LWC_ad by cloud kind instead of the depth profile of
     "convective_factor": None,       # icing.physics.microphysics.adiabatic_fraction (None: the profile)
     "drizzle_top_temperature": 263.15,  # K, warm-topped cloud: Huffman and Norman (1988), Rauber et al. (2000)
-    "drizzle_min_thickness_m": 300.0,   # common practice, our own choice: depth for coalescence to work
+    "drizzle_cold_top_temperature": 258.15,  # K, drizzle at most possible down to -15 degC (see precipitation_source)
+    # Effective radius of cloud droplets above which collision-coalescence starts warm rain: about 14 um, Freud
+    # and Rosenfeld (2012), J. Geophys. Res. 117, D02207, from aircraft profiles; Rosenfeld and Gutman (1994),
+    # Atmos. Res. 34, 259-283, used 14 um with satellite retrievals (values from memory). Drizzle needs drops
+    # of about 40 um diameter to start coalescing (Rasmussen et al. 2002, J. Atmos. Sci. 59, 837-860).
+    "warm_rain_effective_radius_m": 14e-6,
     "melting_area_aloft": 2.0,          # J/kg, Bourgouin (2000)
 }
 # The scalar settings of cloud_in_column, in the order of its ``settings`` array.

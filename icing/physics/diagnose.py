@@ -32,7 +32,7 @@ __all__ = ["diagnose_arrays", "diagnose", "diagnose_column", "compile_kernels", 
 
 DEFAULT_COLD_LIMIT_C = -40.0
 LEVEL_OUTPUTS = ("rh_water", "rh_ice", "in_cloud", "supercooled", "liquid_fraction", "lwc", "mvd", "large_drop",
-                 "warm_layer_aloft", "cloud_kind", "valid")
+                 "warm_layer_aloft", "cloud_kind", "valid", "large_drop_potential", "large_drop_reason")
 PROFILE_OUTPUTS = ("precipitation_type", "freezing_level_count")
 _BLOCK = 2048  # profiles per block
 _WORKERS = min(4, os.cpu_count() or 1)  # block threads of a call from the main thread (see _thread_count)
@@ -93,8 +93,8 @@ def _check_params(params):
 
 # The scalar settings of diagnose_column, in the order of its ``settings`` array (cloud.CLOUD_SETTINGS first).
 COLUMN_SETTINGS = cloud.CLOUD_SETTINGS + ("convective_excess_k", "stratiform_factor", "convective_factor",
-                                          "drizzle_top_temperature", "drizzle_min_thickness_m", "melting_area_aloft",
-                                          "liquid_rh")
+                                          "drizzle_top_temperature", "warm_rain_mean_volume_radius_m",
+                                          "melting_area_aloft", "liquid_rh", "drizzle_cold_top_temperature")
 
 
 @jitable
@@ -123,9 +123,11 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         Output rows: RH over water, RH over ice (percent), liquid fraction, LWC (g/m3), MVD (um).
     out_b : ndarray of bool (3, n)
         Output rows: in cloud, supercooled, warm layer aloft.
-    out_i : ndarray of int8 (2, n)
-        Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective).
-    scratch_f, scratch_b, scratch_i : ndarray (11, n), (6, n), (6, n)
+    out_i : ndarray of int8 (4, n)
+        Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective),
+        large-drop potential (:data:`icing.physics.precipitation.LARGE_DROP_POTENTIAL`) and reason
+        (:data:`icing.physics.precipitation.LARGE_DROP_REASONS`).
+    scratch_f, scratch_b, scratch_i : ndarray (12, n), (6, n), (8, n)
         Work space (float, bool, int64).
 
     Returns
@@ -147,16 +149,18 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     """
     n = t.size
     conv_excess, f_strat, f_conv = settings[7], settings[8], settings[9]
-    dz_top_t, dz_thick, melt_aloft, liquid_rh = settings[10], settings[11], settings[12], settings[13]
+    dz_top_t, rv_coalescence, melt_aloft, liquid_rh = settings[10], settings[11], settings[12], settings[13]
+    dz_cold_top_t = settings[14]
     rh_w, rh_i, lf_out, lwc_out, mvd_out = out_f[0], out_f[1], out_f[2], out_f[3], out_f[4]
     in_cloud, supercooled, warm_aloft = out_b[0], out_b[1], out_b[2]
-    large, kind = out_i[0], out_i[1]
+    large, kind, potential, reason = out_i[0], out_i[1], out_i[2], out_i[3]
     lnt, rh_c, z_agl, min_rh, zb, parcel, lwc_ad, area = (scratch_f[0], scratch_f[1], scratch_f[2], scratch_f[3],
                                                           scratch_f[4], scratch_f[5], scratch_f[6], scratch_f[7])
-    layer_area, above_base, layer_limit = scratch_f[8], scratch_f[9], scratch_f[10]
-    model, drizzle_src = scratch_b[2], scratch_b[3]
+    layer_area, above_base, layer_limit, layer_sure = scratch_f[8], scratch_f[9], scratch_f[10], scratch_f[11]
+    model, rain_melted = scratch_b[2], scratch_b[5]
     starts, ends = scratch_i[2], scratch_i[3]
     layer_start, layer_of = scratch_i[4], scratch_i[5]
+    drizzle_src, rain_grade = scratch_i[6], scratch_i[7]
     # humidity (Murphy and Koop 2005) and the height above the lowest level
     z0 = np.nan
     for k in range(n):
@@ -228,17 +232,31 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
             lwc = np.nan
         lwc_out[k] = lwc
         mvd_out[k] = microphysics.mean_volume_diameter(lwc / 1000.0, n_drop) * mvd_ratio * 1e6 if lwc > 0 else np.nan
-    # precipitation: its source, the type at the ground, large drops
-    src_level, src_phase, any_drizzle = precipitation.precipitation_source(
-        z_agl, zb, t, starts, ends, nr, settings[2], dz_top_t, dz_thick, drizzle_src)
-    rain = scratch_b[5]
-    ptype = precipitation.precipitation_type_in_column(lnp, lnt, t, src_level, src_phase, humidity_complete,
-                                                       melt_aloft, rain, area, layer_start, layer_of, layer_area,
-                                                       layer_limit)
+    # precipitation: its source (the highest layer whose snow does not sublimate on the way down), the type at
+    # the ground, large drops with their grade and reason
+    below = n
+    while True:
+        src, src_phase, any_drizzle, src_grade = precipitation.precipitation_source(
+            z_agl, zb, t, lwc_ad, lf_out, starts, ends, nr, settings[2], dz_top_t, dz_cold_top_t, rv_coalescence,
+            n_drop, below, drizzle_src)
+        if src < 0 or src_phase != precipitation.SNOW:
+            break
+        if precipitation.snow_sublimation_level(z, p, t, rh_i, in_cloud, starts[src]) < 0:
+            break
+        below = starts[src]  # gone before it reaches warm air or the ground: a lower layer may still precipitate
+    src_level = ends[src] if src >= 0 else -1
+    ptype = precipitation.precipitation_type_in_column(lnp, lnt, t, src_level, src_phase, src_grade,
+                                                       humidity_complete, melt_aloft, rain_grade, rain_melted, area,
+                                                       layer_start, layer_of, layer_area, layer_limit, layer_sure)
     if any_drizzle:
         precipitation.drizzle_below_in_column(t, drizzle_src, in_cloud, drizzle_src)
     for k in range(n):
-        large[k] = 2 if rain[k] else (1 if (any_drizzle and drizzle_src[k]) else 0)
+        if rain_grade[k] > 0:
+            large[k], potential[k], reason[k] = 2, rain_grade[k], 2 if rain_melted[k] else 3
+        elif any_drizzle and drizzle_src[k] > 0:
+            large[k], potential[k], reason[k] = 1, drizzle_src[k], 1
+        else:
+            large[k], potential[k], reason[k] = 0, 0, 0
     crossings = precipitation.warm_layer_aloft_in_column(t, warm_aloft)
     return ptype, crossings
 
@@ -246,11 +264,11 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
 def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh, max_rh, inter_rh, adiabats,
                    n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
     """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
-    when unused); outputs (5, P, n), (3, P, n), (2, P, n), (P,), (P,)."""
+    when unused); outputs (5, P, n), (3, P, n), (4, P, n), (P,), (P,)."""
     npro, n = t.shape
-    scratch_f = np.empty((11, n))
+    scratch_f = np.empty((12, n))
     scratch_b = np.empty((6, n), np.bool_)
-    scratch_i = np.empty((6, n), np.int64)
+    scratch_i = np.empty((8, n), np.int64)
     lnp = np.empty(n)
     shared = p.shape[0] == 1
     if shared:
@@ -298,7 +316,7 @@ def compile_kernels():
 
 
 def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, *, cold_limit=233.15,
-                    airmass="continental", threads=None, **thresholds):
+                    airmass=microphysics.DEFAULT_AIRMASS, threads=None, **thresholds):
     """Icing diagnostics level by level for profiles of shape (..., level), plain SI in and out.
 
     Parameters
@@ -311,7 +329,7 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     cold_limit : float
         Coldest temperature (K) at which supercooled liquid is considered, default 233.15 K (-40 degC); a limit
         colder than the 224.8 K homogeneous-nucleation limit of pure water raises :class:`ConfigError`.
-    airmass : {"continental", "marine"} or float
+    airmass : {"supercooled", "continental", "marine"} or float
         Droplet number concentration for the droplet size (a number is per cm3).
     threads : int, optional
         Threads working on blocks of profiles at once (the compiled kernel releases the GIL). By default the
@@ -365,13 +383,16 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
         prm["convective_excess_k"],
         *((np.nan, np.nan) if prm["stratiform_factor"] is None and prm["convective_factor"] is None else
           microphysics.subadiabatic_factors(prm["stratiform_factor"], prm["convective_factor"])),
-        prm["drizzle_top_temperature"], prm["drizzle_min_thickness_m"], prm["melting_area_aloft"],
-        np.nan if prm["liquid_rh"] is None else prm["liquid_rh"]], dtype=float)
+        prm["drizzle_top_temperature"],
+        # the coalescence threshold as a mean volume radius: r_v = r_e k^(1/3) (Martin et al. 1994)
+        prm["warm_rain_effective_radius_m"] * microphysics.spectral_shape_k(airmass) ** (1.0 / 3.0),
+        prm["melting_area_aloft"], np.nan if prm["liquid_rh"] is None else prm["liquid_rh"],
+        prm["drizzle_cold_top_temperature"]], dtype=float)
     tables = (np.asarray(cloud.ZHANG_HEIGHTS_M, dtype=float), np.asarray(prm["min_rh"], dtype=float),
               np.asarray(prm["max_rh"], dtype=float), np.asarray(prm["inter_rh"], dtype=float))
     out_f = np.empty((5, npro, n))
     out_b = np.empty((3, npro, n), bool)
-    out_i = np.empty((2, npro, n), np.int8)
+    out_i = np.empty((4, npro, n), np.int8)
     ptype = np.empty(npro, np.int8)
     crossings = np.empty(npro, np.int64)
     kernel = _compiled_rows()
@@ -395,7 +416,8 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
             block(i)
     levels = {"rh_water": out_f[0], "rh_ice": out_f[1], "in_cloud": out_b[0], "supercooled": out_b[1],
               "liquid_fraction": out_f[2], "lwc": out_f[3], "mvd": out_f[4], "large_drop": out_i[0],
-              "warm_layer_aloft": out_b[2], "cloud_kind": out_i[1], "valid": valid}
+              "warm_layer_aloft": out_b[2], "cloud_kind": out_i[1], "valid": valid,
+              "large_drop_potential": out_i[2], "large_drop_reason": out_i[3]}
     result = {}
     for name in LEVEL_OUTPUTS:
         arr = levels[name]
@@ -419,12 +441,18 @@ FIELD_ATTRS = {
     "liquid_fraction": {"units": "1", "long_name": "liquid fraction of cloud condensate (Hu et al. 2010)"},
     "lwc": {"units": "g/m^3", "long_name": "liquid water content"},
     "mvd": {"units": "micrometer", "long_name": "median volume diameter of cloud droplets"},
-    "large_drop": {"long_name": "supercooled large-drop potential", "flag_values": np.array([0, 1, 2], np.int8),
+    "large_drop": {"long_name": "supercooled large drops possible, by kind",
+                   "flag_values": np.array([0, 1, 2], np.int8),
                    "flag_meanings": "none drizzle rain"},
     "warm_layer_aloft": {"long_name": "in a layer above 0 degC that lies above sub-freezing air"},
     "cloud_kind": {"long_name": "cloud kind from the lapse rate against the moist adiabat",
                    "flag_values": np.array([0, 1, 2], np.int8), "flag_meanings": "none stratiform convective"},
     "valid": {"long_name": "temperature and humidity measured at this level (else interpolated or unknown)"},
+    "large_drop_potential": {"long_name": "supercooled large-drop potential, graded",
+                             "flag_values": np.array([0, 1, 2], np.int8), "flag_meanings": "none possible likely"},
+    "large_drop_reason": {"long_name": "why supercooled large drops are possible",
+                          "flag_values": np.array([0, 1, 2, 3], np.int8),
+                          "flag_meanings": "none warm_rain_process melted_aloft_refreezing rain_from_warm_cloud"},
     "precipitation_type": {"long_name": "precipitation type at the lowest level if precipitation falls "
                                         "(Bourgouin 2000 energy areas)",
                            "flag_values": np.array(sorted(precipitation.PRECIPITATION_TYPES), np.int8),
@@ -434,6 +462,7 @@ FIELD_ATTRS = {
 }
 _DTYPES = {"in_cloud": bool, "supercooled": bool, "warm_layer_aloft": bool, "valid": bool,
            "large_drop": np.int8, "cloud_kind": np.int8, "precipitation_type": np.int8,
+           "large_drop_potential": np.int8, "large_drop_reason": np.int8,
            "freezing_level_count": np.int64}
 
 
@@ -443,7 +472,8 @@ def _cold_limit_kelvin(cold_limit):
     return float(cold_limit) + thermo.T0
 
 
-def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental", **thresholds) -> xr.Dataset:
+def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass=microphysics.DEFAULT_AIRMASS,
+             **thresholds) -> xr.Dataset:
     """Icing diagnostics of canonical profile Dataset(s), keeping their dimensions and coordinates.
 
     Parameters
@@ -454,7 +484,7 @@ def diagnose(profiles, *, cold_limit=DEFAULT_COLD_LIMIT_C, airmass="continental"
         optionally ``cloud_liquid``. Dask-backed variables stay lazy.
     cold_limit : pint.Quantity or float
         Coldest temperature for supercooled liquid; a float is in degC (default -40 degC).
-    airmass : {"continental", "marine"} or float
+    airmass : {"supercooled", "continental", "marine"} or float
         Droplet number for the droplet size (a number is per cm3).
     **thresholds
         Any of :data:`icing.physics.cloud.CLOUD_DEFAULTS`.

@@ -18,7 +18,7 @@ from icing.physics.cloud import (
     ZHANG_MIN_RH,
     zhang_thresholds,
 )
-from icing.physics.precipitation import PRECIPITATION_TYPES
+from icing.physics.precipitation import LARGE_DROP_POTENTIAL, LARGE_DROP_REASONS, PRECIPITATION_TYPES
 from icing.units import FT
 
 __all__ = [
@@ -129,7 +129,8 @@ _KIND = {0: "", 1: "stratiform", 2: "convective"}
 _DROP = {0: "none", 1: "drizzle", 2: "rain"}
 SUPERCOOLED_COLUMNS = ["base_height_m", "top_height_m", "base_height_ft", "top_height_ft", "base_pressure_hpa",
                        "top_pressure_hpa", "base_temperature_c", "top_temperature_c", "thickness_m",
-                       "max_lwc_g_m3", "mvd_um", "cloud_top_temperature_c", "kind", "large_drop", "quality"]
+                       "max_lwc_g_m3", "mvd_um", "cloud_top_temperature_c", "kind", "large_drop",
+                       "large_drop_potential", "large_drop_reason", "quality"]
 
 
 def supercooled_layers(profile, **params) -> pd.DataFrame:
@@ -139,8 +140,10 @@ def supercooled_layers(profile, **params) -> pd.DataFrame:
     ``base_height_ft``, ``top_height_ft``, ``base_pressure_hpa``, ``top_pressure_hpa``,
     ``base_temperature_c``, ``top_temperature_c``, ``thickness_m``, ``max_lwc_g_m3``, ``mvd_um`` (at the level
     of largest LWC), ``cloud_top_temperature_c`` (of the cloud layer holding it), ``kind`` (stratiform or
-    convective), ``large_drop`` (none, drizzle or rain) and ``quality`` (filled, changed or unusable levels in
-    the layer; empty if none). Layer edges are interpolated where temperature crosses 0 degC or the cold limit
+    convective), ``large_drop`` (none, drizzle or rain), ``large_drop_potential`` (none, possible or likely:
+    the highest in the layer), ``large_drop_reason`` (why, at the level of that potential; see
+    :data:`icing.physics.precipitation.LARGE_DROP_REASONS`) and ``quality`` (filled, changed or unusable levels
+    in the layer; empty if none). Layer edges are interpolated where temperature crosses 0 degC or the cold limit
     or RH crosses the cloud threshold.
     """
     ds = _single(profile, **params)
@@ -163,9 +166,18 @@ def supercooled_layers(profile, **params) -> pd.DataFrame:
                   "mvd_um": float(mvd[k]), "cloud_top_temperature_c": float(np.interp(cloud_top, z[ok], t[ok])),
                   "kind": _KIND[int(ds["cloud_kind"].values[lo:hi + 1].max())],
                   "large_drop": _DROP[int(ds["large_drop"].values[lo:hi + 1].max())],
+                  **_large_drop_grade(ds, lo, hi),
                   "quality": _quality_text(ds, max(lo - 1, 0), min(hi + 1, z.size - 1))})
         out.append(r)
     return pd.DataFrame(out, columns=SUPERCOOLED_COLUMNS)
+
+
+def _large_drop_grade(ds, lo, hi):
+    """The largest large-drop potential of levels lo..hi and the reason at the level where it is largest."""
+    pot = ds["large_drop_potential"].values[lo:hi + 1]
+    k = lo + int(np.argmax(pot))
+    return {"large_drop_potential": LARGE_DROP_POTENTIAL[int(pot.max())],
+            "large_drop_reason": LARGE_DROP_REASONS[int(ds["large_drop_reason"].values[k])]}
 
 
 CLOUD_COLUMNS = ["base_height_m", "top_height_m", "base_height_ft", "top_height_ft", "base_pressure_hpa",

@@ -15,6 +15,7 @@ __all__ = [
     "RD", "RV", "EPSILON", "G0", "CP_D", "T0", "KAPPA",
     "ln_saturation_vapor_pressure_water", "ln_saturation_vapor_pressure_ice",
     "saturation_vapor_pressure_water", "saturation_vapor_pressure_ice", "dewpoint_from_vapor_pressure",
+    "air_viscosity", "air_thermal_conductivity", "vapor_diffusivity",
     "relative_humidity_water", "relative_humidity_ice", "dewpoint_from_relative_humidity",
     "saturation_mixing_ratio", "mixing_ratio_from_dewpoint", "virtual_temperature",
     "hypsometric_heights", "interp_last_axis", "height_at_pressure", "pressure_at_height",
@@ -62,6 +63,39 @@ def ln_saturation_vapor_pressure_ice(temperature, log_temperature):
     """
     t = temperature
     return 9.550426 - 5723.265 / t + 3.53068 * log_temperature - 0.00728332 * t
+
+
+@jitable
+def air_viscosity(temperature):
+    """Dynamic viscosity of air (Pa s) at a temperature (K).
+
+    Sutherland's law in the form of the U.S. Standard Atmosphere 1976, eq. (51):
+    :math:`\\mu = \\beta T^{3/2} / (T + S)`, beta = 1.458e-6 kg/(m s K^0.5), S = 110.4 K; valid for the lower
+    atmosphere (about 150-500 K). Floats, arrays and the compiled kernels alike.
+    """
+    return 1.458e-6 * temperature**1.5 / (temperature + 110.4)
+
+
+@jitable
+def air_thermal_conductivity(temperature):
+    """Thermal conductivity of air (W/(m K)) at a temperature (K).
+
+    U.S. Standard Atmosphere 1976, eq. (53): :math:`k = 2.64638\\times10^{-3} T^{3/2} / (T + 245.4 \\cdot
+    10^{-12/T})`, valid for the lower atmosphere.
+    """
+    return 2.64638e-3 * temperature**1.5 / (temperature + 245.4 * 10.0 ** (-12.0 / temperature))
+
+
+@jitable
+def vapor_diffusivity(temperature, pressure):
+    """Diffusivity of water vapour in air (m2/s) at a temperature (K) and pressure (Pa).
+
+    .. math:: D_v = 2.11\\times10^{-5} (T / T_0)^{1.94} (p_0 / p), \\quad p_0 = 101325 \\text{ Pa}
+
+    Pruppacher and Klett (1997), Microphysics of Clouds and Precipitation, eq. (13-3), for -40 to 40 degC
+    (from memory).
+    """
+    return 2.11e-5 * (temperature / T0) ** 1.94 * (101325.0 / pressure)
 
 
 def saturation_vapor_pressure_water(temperature):

@@ -102,7 +102,7 @@ def _diagnostics(data, cold_limit, airmass):
     return diagnose(data, cold_limit=cold_limit, airmass=airmass)
 
 
-def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="continental", title=None,
+def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="supercooled", title=None,
                     top_hpa=None, wind=None, others=()) -> Figure:
     """Skew-T diagram of one sounding with its supercooled layers, and the LWC/MVD profile beside it.
 
@@ -648,7 +648,7 @@ def save_figure(fig, path) -> Path:
     return path
 
 
-def plot_sounding_main(path, out, *, cold_limit=-40.0, airmass="continental", top_hpa=None, stream=None):
+def plot_sounding_main(path, out, *, cold_limit=-40.0, airmass="supercooled", top_hpa=None, stream=None):
     """Draw every profile of a sounding file; the ``icing plot`` command.
 
     Parameters
