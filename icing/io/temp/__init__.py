@@ -84,7 +84,9 @@ def _winds_by_height(asc, ds, quality):
                             f"temperature ascent{top}: no pressure for it"})
             continue
         pz = float(np.exp(np.interp(height, z, lnp)))
-        rows.append((round(pz, 1), float(height), np.nan, np.nan, wd, ws, line))
+        # (to 0.001 hPa, a few decimetres even at 10 hPa: rounding to 0.1 hPa would merge a wind 10 m above a
+        # standard level aloft with that level)
+        rows.append((round(pz, 3), float(height), np.nan, np.nan, wd, ws, line))
     return rows
 
 
