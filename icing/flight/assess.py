@@ -15,11 +15,12 @@ import pandas as pd
 from icing import CAUTION
 from icing.flight.result import Assessment
 from icing.physics import thermo
+from icing.physics.precipitation import LARGE_DROP_REASONS
 from icing.units import FT, NMI
 
 __all__ = ["assess_route", "assess_routes", "atmosphere_source", "Assessment", "SEGMENT_COLUMNS", "EXTRA_COLUMNS",
            "INTENSITIES", "ICE_TYPES", "LARGE_DROPS", "DATA_STATUS", "INTENSITY_DTYPE", "ICE_TYPE_DTYPE",
-           "LARGE_DROPS_DTYPE", "DATA_DTYPE"]
+           "LARGE_DROPS_DTYPE", "LARGE_DROP_POTENTIAL_DTYPE", "DATA_DTYPE"]
 
 INTENSITIES = ("none", "trace", "light", "moderate", "severe")
 ICE_TYPES = ("none", "rime", "mixed", "glaze")
@@ -31,13 +32,14 @@ DATA_STATUS = ("ok", "partial", "missing")
 INTENSITY_DTYPE = pd.CategoricalDtype([*INTENSITIES, "unknown"], ordered=True)
 ICE_TYPE_DTYPE = pd.CategoricalDtype(list(ICE_TYPES), ordered=True)
 LARGE_DROPS_DTYPE = pd.CategoricalDtype(list(LARGE_DROPS), ordered=True)
+LARGE_DROP_POTENTIAL_DTYPE = pd.CategoricalDtype(["none", "possible", "likely"], ordered=True)
 DATA_DTYPE = pd.CategoricalDtype(list(DATA_STATUS), ordered=True)
 SEGMENT_COLUMNS = ["segment", "start", "end", "start_time", "end_time", "distance_nm", "altitude_ft_min",
                    "altitude_ft_max", "icing_minutes", "max_rate_mm_per_h", "accretion_mm", "intensity", "ice_type",
                    "large_drops", "data", "sources"]
 EXTRA_COLUMNS = ["warm_surface_minutes", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
                  "supercooled_top_ft", "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
-                 "best_accretion_mm", "lower_bound"]
+                 "best_accretion_mm", "lower_bound", "large_drop_potential", "large_drop_reason"]
 DEFAULT_OFFSETS_FT = (-6000.0, -4000.0, -2000.0, 2000.0, 4000.0, 6000.0)
 MIN_ALTERNATIVE_FT = 2000.0  # default lowest alternative offered (terrain and airspace are unknown here)
 FULL = 0.999  # coverage at or above this counts as complete data
@@ -252,20 +254,25 @@ def assess_route(route, soundings, aircraft="turboprop", *, step_s=60.0, departu
       sorting puts such segments with the worst and ``seg.intensity >= "moderate"`` selects them as well; select
       known values with ``seg.data == "ok"``. Never null;
     * ``ice_type`` (:data:`ICE_TYPE_DTYPE`: none < rime < mixed < glaze), ``large_drops``
-      (:data:`LARGE_DROPS_DTYPE`: none < drizzle < rain), ``data`` (:data:`DATA_DTYPE`: ok < partial < missing)
+      (:data:`LARGE_DROPS_DTYPE`: none < drizzle < rain), ``large_drop_potential``
+      (:data:`LARGE_DROP_POTENTIAL_DTYPE`: none < possible < likely; the largest along the segment), ``data``
+      (:data:`DATA_DTYPE`: ok < partial < missing)
       ordered categoricals;
-    * ``appendix_c``, ``appendix_o`` text (``n/a``, ``within``, ``unknown``, ``beyond``);
+    * ``appendix_c``, ``appendix_o`` text (``n/a``, ``within``, ``unknown``, ``beyond``); ``large_drop_reason``
+      text, why large drops are possible where their potential is largest
+      (:data:`icing.physics.precipitation.LARGE_DROP_REASONS`; ``none`` without; None where data are missing);
     * ``lower_bound`` bool: True where ``data`` is ``partial``;
     * every other column float64.
 
-    Unknown is null, never zero or ``none``. A segment whose ``data`` is ``missing`` has NaN in
-    ``icing_minutes``, ``max_rate_mm_per_h``, ``accretion_mm``, ``warm_surface_minutes``, ``max_lwc_g_m3`` and
-    ``mvd_um``, null (NaN category) in ``ice_type`` and ``large_drops``, ``unknown`` in ``intensity``,
-    ``appendix_c`` and ``appendix_o``. A segment whose ``data`` is ``partial`` holds what the samples with data
-    say: its numbers, ``ice_type`` and ``large_drops`` are lower bounds (``lower_bound`` True), and its
-    ``intensity`` is the worst known (``unknown`` when that is ``none``). ``mvd_um`` is NaN where no sample is in
-    icing; ``min_temperature_c``, ``freezing_level_ft``, ``supercooled_top_ft``, ``data_distance_km``,
-    ``data_age_h``, ``best_altitude_ft`` and ``best_accretion_mm`` are NaN where unknown.
+    Unknown is null, never zero or ``none``. A segment whose ``data`` is ``missing`` has NaN in ``icing_minutes``,
+    ``max_rate_mm_per_h``, ``accretion_mm``, ``warm_surface_minutes``, ``max_lwc_g_m3`` and ``mvd_um``, null (NaN
+    category) in ``ice_type``, ``large_drops`` and ``large_drop_potential``, None in ``large_drop_reason``,
+    ``unknown`` in ``intensity``, ``appendix_c`` and ``appendix_o``. A segment whose ``data`` is ``partial`` holds
+    what the samples with data say: its numbers, ``ice_type``, ``large_drops`` and ``large_drop_potential`` are
+    lower bounds (``lower_bound`` True), and its ``intensity`` is the worst known (``unknown`` when that is
+    ``none``). ``mvd_um`` is NaN where no sample is in icing; ``min_temperature_c``, ``freezing_level_ft``,
+    ``supercooled_top_ft``, ``data_distance_km``, ``data_age_h``, ``best_altitude_ft`` and ``best_accretion_mm`` are
+    NaN where unknown.
 
     In the summary, ``total_icing_minutes``, ``total_accretion_mm`` are NaN and ``worst_segment`` None with
     ``worst_intensity`` ``unknown`` when any segment has no data (``worst_known_segment`` and
@@ -328,7 +335,8 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
     dur = traj["duration_s"].to_numpy()
     samples = traj.assign(
         pressure_hpa=atm["pressure"] / 100.0, temperature_c=atm["temperature"], lwc_g_m3=atm["lwc"],
-        mvd_um=atm["mvd"], large_drop=atm["large_drop"], coverage=atm["coverage"], in_icing=icing,
+        mvd_um=atm["mvd"], large_drop=atm["large_drop"], large_drop_potential=atm["large_drop_potential"],
+        large_drop_reason=atm["large_drop_reason"], coverage=atm["coverage"], in_icing=icing,
         warm_surface=warm,
         rate_mm_per_h=rate, accretion_mm=rate * dur / 3600.0,
         ice_type=pd.Categorical.from_codes(np.where(atm["coverage"] > 0, ice, -1), dtype=ICE_TYPE_DTYPE),
@@ -430,6 +438,9 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=Fal
     lwc = np.nan_to_num(smp["lwc_g_m3"].to_numpy())
     mvd = smp["mvd_um"].to_numpy()
     ld = np.nan_to_num(smp["large_drop"].to_numpy()).astype(int)
+    # the largest large-drop potential of a segment, with the reason where it is largest (potential x 4 + reason)
+    ld_code = _reduce(np.maximum, (4 * np.nan_to_num(smp["large_drop_potential"].to_numpy())
+                                   + np.nan_to_num(smp["large_drop_reason"].to_numpy())).astype(int), starts)
     codes = _sample_codes(rate, lwc, mvd, temp, ld, icing_certified)
     lvl = {"n/a": 0, "within": 1, "unknown": 2, "beyond": 3}  # the larger wins within a segment
     app_c = np.asarray(appendix_c_status(lwc, mvd, temp, alt))
@@ -506,6 +517,9 @@ def _segment_tables(routes, smp, used, source, alt_acc, ice, icing_certified=Fal
         "best_altitude_ft": np.where(has_best, alt_max + offs[best], np.nan),
         "best_accretion_mm": np.where(has_best, mat[np.arange(n_seg), best], np.nan),
         "lower_bound": status == 1,
+        "large_drop_potential": category(ld_code // 4, LARGE_DROP_POTENTIAL_DTYPE),
+        "large_drop_reason": np.where(missing, None, np.array(
+            [LARGE_DROP_REASONS[int(c)] for c in ld_code % 4], dtype=object)),
     }, columns=SEGMENT_COLUMNS + EXTRA_COLUMNS)
     alternatives = pd.DataFrame({
         "_route": np.repeat(seg_route, offs.size), "segment": np.repeat(leg[starts] + 1, offs.size),
