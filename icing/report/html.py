@@ -33,15 +33,17 @@ SEGMENT_HEADINGS = {
     "p_severe": "share of members severe or worse", "accretion_p10_mm": "accretion, 10th percentile of members (mm)",
     "accretion_p90_mm": "accretion, 90th percentile of members (mm)",
     "spread_driver": "assumption that moves the accretion most",
+    "large_drop_potential": "supercooled large drops", "large_drop_reason": "why large drops",
 }
 # The compact table: where (from, to, altitudes), when (times), how bad (minutes, accretion, intensity, type,
 # large drops), how sure (data). Everything else folds into the row's details.
 COMPACT = ["segment", "start", "end", "start_time", "altitude_ft_min", "icing_minutes", "accretion_mm",
            "intensity", "ice_type", "large_drops", "data"]
-DETAILS = ["distance_nm", "max_rate_mm_per_h", "max_lwc_g_m3", "mvd_um", "min_temperature_c", "freezing_level_ft",
-           "supercooled_top_ft", "warm_surface_minutes", "appendix_c", "appendix_o", "data_distance_km",
-           "data_age_h", "best_altitude_ft", "best_accretion_mm", "sources", "p_light", "p_moderate", "p_severe",
-           "accretion_p10_mm", "accretion_p90_mm", "spread_driver"]
+DETAILS = ["large_drop_potential", "large_drop_reason", "distance_nm", "max_rate_mm_per_h", "max_lwc_g_m3",
+           "mvd_um", "min_temperature_c", "freezing_level_ft", "supercooled_top_ft", "warm_surface_minutes",
+           "appendix_c", "appendix_o", "data_distance_km", "data_age_h", "best_altitude_ft",
+           "best_accretion_mm", "sources", "p_light", "p_moderate", "p_severe", "accretion_p10_mm",
+           "accretion_p90_mm", "spread_driver"]
 # With the spread ensemble (assess_route(spread=True)) the compact table also shows how sure: the share of members
 # at moderate or worse and the 10th-90th percentile range of accretion.
 SPREAD_COLUMNS = ("p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver")
