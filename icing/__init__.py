@@ -38,6 +38,8 @@ _EXPORTS = {
     "Route": "icing.flight.route",
     "SoundingSource": "icing.flight.sources",
     "assess_route": "icing.flight.assess",
+    "screen_departures": "icing.flight.departures",
+    "ModelEnsemble": "icing.flight.spread",
     "read_pireps": "icing.verify.pireps",
     "verify_reports": "icing.verify.match",
     "units": "icing.units",

@@ -166,6 +166,16 @@ def _add_screen_options(sp):
                     "csv (one row a segment) or geojson (one line a segment); e.g. --format csv")
     sp.add_argument("--out", metavar="DIR", help="also write the report files (segments.csv, assessment.json, "
                     "segments.geojson, report.html with its figures) to DIR; e.g. --out report/")
+    sp.add_argument("--spread", action="store_true",
+                    help="how sure: also run the chain over a seeded ensemble of its assumptions (cloud "
+                    "threshold, LWC factor, droplet number, cold limit, time and distance weighting; the members "
+                    "of a model ensemble file) and show per segment the share of members at light, moderate and "
+                    "severe or worse and the 10-90 %% range of accretion; e.g. --spread --members 50")
+    sp.add_argument("--members", type=int, default=30, metavar="N",
+                    help="members of the --spread ensemble (default 30); e.g. --members 50")
+    sp.add_argument("--seed", type=int, default=0, metavar="S",
+                    help="seed of the --spread ensemble's draws (default 0: the same answer every run); e.g. "
+                    "--seed 7")
 
 
 def _add_verify_parser(sub):
@@ -342,12 +352,33 @@ def _source(args, soundings):
     if getattr(args, "model", None):
         from icing.flight.gridsource import GridSource
 
+        if _has_members(args.model):  # a model ensemble: its members are the members of --spread
+            from icing.flight.spread import ModelEnsemble
+
+            return ModelEnsemble(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
         return GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
     from icing.flight.assess import atmosphere_source
 
     return atmosphere_source(soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
                              cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
                              reference_time=args.reference_time, units=_units_option(args.units))
+
+
+def _has_members(path) -> bool:
+    """Whether a netCDF model file has an ensemble-member dimension (other formats: read as one model)."""
+    from pathlib import Path
+
+    if Path(path).suffix.lower() not in (".nc", ".nc4", ".cdf", ".netcdf"):
+        return False
+    import xarray as xr
+
+    from icing.flight.spread import MEMBER_DIMS
+
+    try:
+        with xr.open_dataset(path) as ds:
+            return any(d in ds.dims for d in MEMBER_DIMS)
+    except (OSError, ValueError):
+        return False  # the model reader reports what is wrong with the file
 
 
 def _screen(args, route, soundings):
@@ -368,7 +399,9 @@ def _screen(args, route, soundings):
 
                 route = read_route(route, departure=args.departure, waypoints=args.waypoints)
             result = assess_route(route, source, ac, step_s=args.step, departure=args.departure,
-                                  min_altitude_ft=getattr(args, "min_altitude", 2000.0))
+                                  min_altitude_ft=getattr(args, "min_altitude", 2000.0),
+                                  spread=getattr(args, "spread", False), members=getattr(args, "members", 30),
+                                  seed=getattr(args, "seed", 0))
         except IcingError as exc:
             raise _name_option(exc, args) from None
         fmt = "json" if args.json else args.format

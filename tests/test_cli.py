@@ -350,3 +350,26 @@ def test_screen_departures_window(tmp_path, capsys):
         lines = [x for x in err.splitlines() if x.strip()]
         assert out == "" and len(lines) == 1 and lines[0].startswith("icing: error:"), err
         assert all(w in lines[0] for w in words), lines[0]
+
+
+def test_demo_spread(capsys):
+    """`icing demo --spread --members 8 --seed 3 --format json`: every segment carries the shares of members at
+    light, moderate and severe or worse (ordered, within 0-1) and the 10-90 % accretion range around nothing
+    it contradicts (p10 <= p90); the same seed gives the same answer; a bad member count is one line, exit 2
+    (structure only: the ensemble's physics is checked in tests/test_spread.py)."""
+    from icing.cli import main
+
+    args = ["demo", "--spread", "--members", "8", "--seed", "3", "--format", "json"]
+    assert main(args) == 0
+    first = json.loads(capsys.readouterr().out)
+    segs = first["segments"]
+    assert segs and "caution" in first
+    for s in segs:
+        p = [s["p_light"], s["p_moderate"], s["p_severe"]]
+        assert all(0.0 <= v <= 1.0 for v in p) and p[0] >= p[1] >= p[2]
+        if s["accretion_p10_mm"] is not None and s["accretion_p90_mm"] is not None:
+            assert s["accretion_p10_mm"] <= s["accretion_p90_mm"]
+    assert main(args) == 0
+    assert json.loads(capsys.readouterr().out)["segments"] == segs
+    assert main(["demo", "--spread", "--members", "0"]) == 2
+    assert capsys.readouterr().err.startswith("icing: error:")

@@ -405,7 +405,9 @@ def normalise_model(ds: xr.Dataset, *, source="", format=FORMAT_NETCDF) -> xr.Da
         for d in extra:
             if var.sizes[d] != 1:
                 raise SoundingFormatError(f"variable {vname!r} has an extra dimension {d!r} of size "
-                                          f"{var.sizes[d]}; select one member first", file=src)
+                                          f"{var.sizes[d]}; select one member first (an ensemble: "
+                                          "icing.flight.spread.ModelEnsemble, or 'icing screen --model FILE "
+                                          "--spread')", file=src)
         var = var.squeeze(extra, drop=True) if extra else var
         ds[vname] = var.transpose(*[d for d in want if d in var.dims])
     # Axis order: latitude increasing, longitude contiguous, pressure decreasing.

@@ -128,8 +128,14 @@ def segment_table(assessment) -> str:
                    "what the quality checks removed from each sounding.")
     drops = seg["large_drops"].astype(object)
     if (drops.notna() & (drops != "none")).any():
-        out.append("Supercooled large drops possible (freezing drizzle or rain): beyond what the droplet-size "
-                   "model above covers; see the large drops column.")
+        why = ""
+        if "large_drop_potential" in seg and "large_drop_reason" in seg:
+            parts = [f"segment {r.segment} {r.large_drops} {r.large_drop_potential} ({r.large_drop_reason})"
+                     for r in seg.itertuples() if not is_missing(r.large_drops) and str(r.large_drops) != "none"
+                     and not is_missing(r.large_drop_potential)]
+            why = " " + "; ".join(parts) + "." if parts else ""
+        out.append("Supercooled large drops (freezing drizzle or rain) are beyond what the droplet-size model "
+                   "above covers; see the large drops column." + why)
     if "warm_surface_minutes" in seg and (seg["warm_surface_minutes"] > 0).any():
         mins = seg["warm_surface_minutes"].sum()
         out.append(f"For {_num(mins, 0)} of the minutes in supercooled liquid the air's heating of the leading edge "
