@@ -14,20 +14,28 @@ import textwrap
 from pathlib import Path
 
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from icing import CAUTION
 from icing.errors import IcingError
-from icing.report.plots import DPI, MISSING_HATCH, PALETTE, PARTIAL_HATCH, RATE_CMAP, save_figure
+from icing.report.plots import (
+    FIGURE_SIZES,
+    MISSING_HATCH,
+    PALETTE,
+    PARTIAL_HATCH,
+    RATE_CMAP,
+    add_caution,
+    new_figure,
+    save_figure,
+)
 from icing.report.tables import format_number, frame_records, frame_to_csv, is_missing, iso_utc
 
 __all__ = ["departures_figure", "departures_text", "departures_csv", "departures_dict", "departures_json",
            "write_departure_reports", "FIGURE_SIZE", "BEST_COLOUR"]
 
-FIGURE_SIZE = (11.0, 6.8)
+FIGURE_SIZE = FIGURE_SIZES["departures"]
 BEST_COLOUR = "#f4d35e"  # shading of the best window, ochre (our own)
 INTENSITY_ORDER = ("none", "trace", "light", "moderate", "severe", "unknown")
 
@@ -71,8 +79,7 @@ def departures_figure(table) -> Figure:
     best = table["best"].to_numpy(bool)
     # A departure with partial data whose known totals are unknown is drawn as missing (nothing known to show).
     missing = (data == "missing") | ~np.isfinite(acc)
-    fig = Figure(figsize=FIGURE_SIZE, dpi=DPI)
-    FigureCanvasAgg(fig)
+    fig = new_figure("departures")
     top_ax, low_ax = fig.subplots(2, 1, sharex=True, gridspec_kw={
         "left": 0.08, "right": 0.98, "top": 0.86, "bottom": 0.24, "hspace": 0.12, "height_ratios": [3, 2]})
     known = np.where(missing, np.nan, acc)
@@ -148,8 +155,7 @@ def departures_figure(table) -> Figure:
     else:
         sub = "no departure has complete data: none is marked best (unknown is never safe)"
     fig.text(0.08, 0.915, sub, fontsize=8.5, color="#333333")
-    fig.text(0.01, 0.006, "\n".join(textwrap.wrap(_caution(table), 190)), fontsize=6.5, color="#333333",
-             va="bottom", ha="left")
+    add_caution(fig, text=_caution(table))
     return fig
 
 

@@ -24,7 +24,8 @@ from icing.errors import IcingError
 from icing.report.tables import KT_PER_MS, is_missing
 from icing.units import FT, NMI
 
-__all__ = ["PALETTE", "RATE_CMAP", "RATE_NORM", "LWC_CMAP", "FIGURE_SIZES", "DPI", "sounding_figure",
+__all__ = ["PALETTE", "RATE_CMAP", "RATE_NORM", "LWC_CMAP", "FIGURE_SIZES", "DPI", "add_caution", "new_figure",
+           "sounding_figure",
            "pressure_altitude_ft",
            "cross_section_figure", "segment_chart_figure", "save_figure", "plot_sounding_main"]
 
@@ -57,7 +58,8 @@ RATE_BOUNDS = [0.0, 1e-6, 0.25 * _IN_PER_H_MM, 1.0 * _IN_PER_H_MM, 3.0 * _IN_PER
 RATE_NORM = BoundaryNorm(RATE_BOUNDS, RATE_CMAP.N)
 RATE_WORDS = ["none", "trace", "light", "moderate", "severe"]
 LWC_CMAP = LinearSegmentedColormap.from_list("icing_lwc", ["#eaf6f6", "#a8dadc", "#2a7f86"])
-FIGURE_SIZES = {"sounding": (10.0, 7.5), "cross_section": (12.0, 7.0), "segments": (11.0, 4.8)}
+FIGURE_SIZES = {"sounding": (10.0, 7.5), "cross_section": (12.0, 7.0), "segments": (11.0, 4.8),
+                "how_sure": (11.0, 6.4), "departures": (11.0, 6.8)}
 DPI = 100
 MISSING_HATCH = "///"
 PARTIAL_HATCH = ".."
@@ -65,14 +67,16 @@ FULL = 0.999  # coverage at or above this counts as complete data (as in icing.f
 SHADE_ALPHA = 0.6  # of the supercooled band on the sounding diagram
 
 
-def _caution(fig, y=0.006):
-    fig.text(0.01, y, "\n".join(textwrap.wrap(CAUTION, 190)), fontsize=6.5, color="#333333", va="bottom",
+def add_caution(fig, y=0.006, text=CAUTION):
+    """The caution in small print at the foot of a figure (every figure of the project carries it)."""
+    fig.text(0.01, y, "\n".join(textwrap.wrap(text, 190)), fontsize=6.5, color="#333333", va="bottom",
              ha="left")
 
 
-def _new_figure(kind):
-    # A Figure on the Agg canvas, not registered with pyplot: no display is needed, nothing is kept alive
-    # between calls, and a user's own pyplot backend (a notebook, a window) is left alone.
+def new_figure(kind):
+    """A Figure of one of :data:`FIGURE_SIZES` on the Agg canvas, not registered with pyplot: no display is
+    needed, nothing is kept alive between calls, and a user's own pyplot backend (a notebook, a window) is left
+    alone."""
     fig = Figure(figsize=FIGURE_SIZES[kind], dpi=DPI)
     FigureCanvasAgg(fig)
     return fig
@@ -160,7 +164,7 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="superc
     valid = col("valid", 1) > 0.5
     lwc, mvd = col("lwc"), col("mvd")
 
-    fig = _new_figure("sounding")
+    fig = new_figure("sounding")
     gs = fig.add_gridspec(1, 2, width_ratios=[3.2, 1.0], left=0.07, right=0.895, top=0.86, bottom=0.2, wspace=0.06)
     skew = SkewT(fig, rotation=45, subplot=gs[0, 0], aspect="auto")
     ax = skew.ax
@@ -249,7 +253,7 @@ def sounding_figure(diagnostics_or_profile, *, cold_limit=-40.0, airmass="superc
     fig.suptitle(title, fontsize=12, x=0.07, ha="left", y=0.975)
     fig.text(0.07, 0.93, f"LWC: {a.get('lwc_source', 'diagnosed')}; supercooled between 0 °C and {cold:g} °C "
              f"in cloud; airmass {a.get('airmass', airmass)}", fontsize=8, color="#444444")
-    _caution(fig)
+    add_caution(fig)
     return fig
 
 
@@ -382,7 +386,7 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
         top_ft = max(float(np.nanmax(alt)), float(np.nanmax(sct)) if np.isfinite(sct).any() else 0.0) + 5000.0
         top_ft = float(np.ceil(top_ft / 1000.0) * 1000.0)
 
-    fig = _new_figure("cross_section")
+    fig = new_figure("cross_section")
     ax = fig.add_axes([0.065, 0.3, 0.71 if source is not None else 0.75, 0.58])
     cax = fig.add_axes([0.845 if source is not None else 0.885, 0.3, 0.015, 0.58])
     ax.set_xlim(0.0, xmax)
@@ -480,8 +484,12 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
         mid = 0.5 * (wp[k] + wp[k + 1])
         word = "unknown" if is_missing(row.intensity) else str(row.intensity)
         status = "missing" if is_missing(row.data) else str(row.data)
-        ax.text(mid, top_ft * 0.985, f"{row.segment}: {word}" + ("" if status == "ok" else f" ({status} data)"),
-                ha="center", va="top", fontsize=8, zorder=6,
+        label = f"{row.segment}: {word}" + ("" if status == "ok" else f" ({status} data)")
+        if "p_moderate" in seg:  # how sure (assess_route(spread=True)): share at moderate or worse, 10-90 % range
+            p, lo, hi = row.p_moderate, row.accretion_p10_mm, row.accretion_p90_mm
+            label += "\nmoderate+ " + ("?" if is_missing(p) else f"{100 * float(p):.0f} %")
+            label += "" if is_missing(lo) or is_missing(hi) else f", {float(lo):.1f}-{float(hi):.1f} mm"
+        ax.text(mid, top_ft * 0.985, label, ha="center", va="top", fontsize=8, zorder=6,
                 bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "#999999", "alpha": 0.85})
     ax.set_xlabel("distance along the route (nm)")
     ax.set_ylabel("altitude (ft; flight levels as pressure altitude)")
@@ -497,7 +505,7 @@ def cross_section_figure(assessment, source=None, *, top_ft=None) -> Figure:
     fig.suptitle(f"Route cross-section: {s.get('route', '')}, departure {s.get('departure', '')}, "
                  f"aircraft {s.get('aircraft', '')}", fontsize=12, x=0.065, ha="left", y=0.98)
     fig.text(0.065, 0.935, note, fontsize=8, color="#444444")
-    _caution(fig)
+    add_caution(fig)
     return fig
 
 
@@ -561,7 +569,7 @@ def segment_chart_figure(assessment) -> Figure:
     best_alt = seg["best_altitude_ft"].to_numpy(float)
     plan_alt = np.array([_plan_altitude(alts, int(k)) for k in seg["segment"]])
     alt_minutes = len(alts) > 0 and "icing_minutes" in alts
-    fig = _new_figure("segments")
+    fig = new_figure("segments")
     axes = fig.subplots(1, 2, gridspec_kw={"left": 0.07, "right": 0.98, "top": 0.84, "bottom": 0.3, "wspace": 0.22})
     w = 0.38
     panels = [(axes[0], "accretion_mm", "accretion on the reference body (mm)", seg["best_accretion_mm"].to_numpy(
@@ -618,7 +626,7 @@ def segment_chart_figure(assessment) -> Figure:
                  ha="left", y=0.975)
     fig.text(0.07, 0.91, "best alternative: the least accretion among the whole-route altitude offsets tried, "
              "counted only with full data", fontsize=8, color="#444444")
-    _caution(fig)
+    add_caution(fig)
     return fig
 
 

@@ -8,21 +8,25 @@ clear air); segments with partial data are hatched lightly (lower bounds). The c
 
 from __future__ import annotations
 
-import textwrap
-
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from icing import CAUTION
 from icing.errors import IcingError
-from icing.report.plots import DPI, MISSING_HATCH, PALETTE, PARTIAL_HATCH, RATE_COLOURS
+from icing.report.plots import (
+    FIGURE_SIZES,
+    MISSING_HATCH,
+    PALETTE,
+    PARTIAL_HATCH,
+    RATE_COLOURS,
+    add_caution,
+    new_figure,
+)
 
 __all__ = ["spread_figure", "has_spread", "SPREAD_FIGURE_SIZE"]
 
-SPREAD_FIGURE_SIZE = (11.0, 6.4)
+SPREAD_FIGURE_SIZE = FIGURE_SIZES["how_sure"]
 _COLUMNS = ("p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver")
 
 
@@ -50,8 +54,7 @@ def spread_figure(assessment) -> Figure:
     idx = np.arange(n)
     data = seg["data"].astype(object).where(seg["data"].notna(), "missing").to_numpy()
     p = {k: seg[k].to_numpy(float) for k in ("p_light", "p_moderate", "p_severe")}
-    fig = Figure(figsize=SPREAD_FIGURE_SIZE, dpi=DPI)
-    FigureCanvasAgg(fig)  # on the Agg canvas, not registered with pyplot
+    fig = new_figure("how_sure")
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"left": 0.08, "right": 0.98, "top": 0.86,
                                                                 "bottom": 0.25, "hspace": 0.12})
     # Stacked shares: severe at the bottom, then moderate, light, and below light (none or trace) on top.
@@ -124,6 +127,5 @@ def spread_figure(assessment) -> Figure:
            f"{sp.get('members', '?')} members (seed {sp.get('seed', '?')}) drawn across the chain's assumptions "
            "(cloud RH thresholds, LWC factor, droplet number, cold limit, time and distance weighting)")
     fig.text(0.08, 0.915, f"{who}; a member without data counts at every intensity", fontsize=7.5, color="#444444")
-    fig.text(0.01, 0.006, "\n".join(textwrap.wrap(CAUTION, 190)), fontsize=6.5, color="#333333", va="bottom",
-             ha="left")
+    add_caution(fig)
     return fig
