@@ -25,9 +25,13 @@ import xarray as xr
 from icing.errors import ConfigError, IcingError
 from icing.profile import stack_profiles
 
-__all__ = ["SoundingSource", "EARTH_RADIUS_M", "sample_points"]
+__all__ = ["SoundingSource", "EARTH_RADIUS_M", "DISTANCE_POWER", "DISTANCE_FLOOR_M", "sample_points"]
 
 EARTH_RADIUS_M = 6371008.8  # IUGG mean Earth radius
+# Stations weigh by inverse distance to this power, distances floored at this (a station at a sample's place
+# does not take all the weight); our own choice, common practice of inverse-distance weighting.
+DISTANCE_POWER = 2.0
+DISTANCE_FLOOR_M = 1.0e4
 
 
 def sample_points(latitude, longitude, time, pressure=None, height=None):
@@ -111,6 +115,7 @@ class SoundingSource:
         self.max_distance_m = float(max_distance_km) * 1000.0
         self.max_age_s = float(max_age_hours) * 3600.0
         self.max_stations = int(max_stations)
+        self.diagnose_options = dict(diagnose_options)
         self.diagnostics = diagnose(stacked, **diagnose_options)
         self.latitude, self.longitude = lat, lon
         self.time_s = times.astype(np.int64).astype(float)
@@ -184,7 +189,8 @@ class SoundingSource:
         site_lat[self._site_of] = self.latitude
         site_lon[self._site_of] = self.longitude
         dist = _haversine(lat[:, None], lon[:, None], site_lat[None, :], site_lon[None, :])  # (S, sites)
-        w_space = np.where(dist <= self.max_distance_m, 1.0 / np.maximum(dist, 1.0e4) ** 2, 0.0)
+        w_space = np.where(dist <= self.max_distance_m, 1.0 / np.maximum(dist, DISTANCE_FLOOR_M) ** DISTANCE_POWER,
+                           0.0)
         if n_site > self.max_stations:
             rank = np.argsort(np.argsort(dist, axis=1), axis=1)
             w_space = np.where(rank < self.max_stations, w_space, 0.0)

@@ -48,7 +48,7 @@ import numpy as np
 
 from icing import CAUTION
 from icing.errors import ConfigError
-from icing.flight.sources import SoundingSource
+from icing.flight.sources import DISTANCE_FLOOR_M, DISTANCE_POWER, SoundingSource
 from icing.physics import cloud, microphysics, thermo
 
 __all__ = ["Assumption", "ASSUMPTIONS", "SPREAD_COLUMNS", "DISTANCE_FLOOR_M", "MEMBER_DIMS", "ModelEnsemble",
@@ -57,7 +57,6 @@ __all__ = ["Assumption", "ASSUMPTIONS", "SPREAD_COLUMNS", "DISTANCE_FLOOR_M", "M
 SPREAD_COLUMNS = ["p_light", "p_moderate", "p_severe", "accretion_p10_mm", "accretion_p90_mm", "spread_driver"]
 # The floor of the inverse-distance weighting of icing.flight.sources.SoundingSource.weights (10 km); the
 # distance power of a member re-weights its output by this floored distance (tests check the two agree).
-DISTANCE_FLOOR_M = 1.0e4
 UNKNOWN_CODE = 5  # segment intensity code of "unknown" (after severe = 4), as in the segment table
 LEVELS = {"p_light": 2, "p_moderate": 3, "p_severe": 4}  # codes of icing.flight.assess.INTENSITIES
 # Names of an ensemble-member dimension: CF's realization (standard_name), cfgrib's number, and common others.
@@ -230,8 +229,8 @@ def member_weights(weights, distances, sites, *, distance_power=2.0, time_neares
         Equal to ``weights`` (the same array) for the defaults.
     """
     w = weights
-    if distance_power != 2.0:
-        w = w * np.maximum(distances, DISTANCE_FLOOR_M) ** (2.0 - distance_power)
+    if distance_power != DISTANCE_POWER:
+        w = w * np.maximum(distances, DISTANCE_FLOOR_M) ** (DISTANCE_POWER - distance_power)
     if time_nearest != 0.0:
         near = np.zeros_like(w)
         rows = np.arange(w.shape[0])
