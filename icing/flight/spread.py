@@ -317,7 +317,7 @@ class _Diagnoser:
         cold = opts.pop("cold_limit", None)
         self.cold_limit = _cold_limit_k(-40.0 if cold is None else cold)  # degC as in assess_route
         # the source's diagnostics record their airmass; the fallback is the diagnosis's own default
-        self.airmass = opts.pop("airmass", None) or getattr(microphysics, "DEFAULT_AIRMASS", "continental")
+        self.airmass = opts.pop("airmass", None) or microphysics.DEFAULT_AIRMASS
         self.thresholds = {k: v for k, v in opts.items() if k in cloud.CLOUD_DEFAULTS and v is not None}
         self.n_drop = microphysics.droplet_number_concentration(self.airmass)
         prof = source.profiles
