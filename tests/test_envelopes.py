@@ -130,11 +130,15 @@ def test_words_within_the_continuous_maximum_read_at_most_moderate_for_certified
 def test_beyond_the_envelope_or_with_large_drops_at_least_moderate(lwc, mvd, large):
     """Above the continuous maximum (0.60 g/m3 at -10 degC, 15 um: AC 20-73A Table 6), with drops beyond its
     40 um, or with supercooled large drops (14 CFR Part 25 Appendix O), ice protection designed for Appendix C
-    may not cope: a growing accretion reads at least moderate; none stays none and unknown stays unknown."""
+    may not cope: a growing accretion reads at least moderate; unknown stays unknown. Without cloud water none
+    stays none, but supercooled large drops below 0 degC ice by themselves (freezing drizzle and freezing rain,
+    Appendix O; freezing rain falls through clear air): there none reads moderate too, and above 0 degC it
+    stays none."""
     for certified in (True, False):
         assert int(env.intensity_for_conditions(1, lwc, mvd, -10.0, large, certified)) == 3
         assert int(env.intensity_for_conditions(4, lwc, mvd, -10.0, large, certified)) == 4
-        assert int(env.intensity_for_conditions(0, lwc, mvd, -10.0, large, certified)) == 0
+        assert int(env.intensity_for_conditions(0, lwc, mvd, -10.0, large, certified)) == (3 if large else 0)
+        assert int(env.intensity_for_conditions(0, lwc, mvd, 2.0, large, certified)) == 0
         assert int(env.intensity_for_conditions(-1, lwc, mvd, -10.0, large, certified)) == -1
 
 

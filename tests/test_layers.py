@@ -262,17 +262,18 @@ def test_thin_supercooled_stratus_grows_no_drizzle():
 
 
 def test_deep_warm_topped_marine_deck_drizzles_and_cold_topped_deck_snows():
-    """A deep supercooled deck topped at -6 degC in clean marine air (75 droplets per cm3, Miles et al. 2000)
-    reaches the coalescence size at its top (Freud and Rosenfeld 2012): freezing drizzle likely, from the deck
-    down through the sub-freezing air below it (Huffman and Norman 1988; Rauber et al. 2000). Topped at -16 degC
-    instead, the deck makes ice and snows, and no drizzle is diagnosed."""
+    """A deep supercooled deck topped at -6 degC in clean marine air (75 droplets per cm3, Miles et al. 2000):
+    with the adiabatic water its droplets reach the coalescence size (Freud and Rosenfeld 2012), with the
+    sub-adiabatic estimate they do not, so freezing drizzle is possible, from the deck down through the
+    sub-freezing air below it (Huffman and Norman 1988; Rauber et al. 2000). Topped at -16 degC instead, the
+    deck makes ice and snows, and no drizzle is diagnosed."""
     nodes = ([1000, 900, 800, 700, 600, 500, 450], [-1.0, -2.5, -4.0, -6.0, -16.0, -24.0, -28.0])
     pa, tk, tdk, z = _column(*nodes, cloud=(950.0, 700.0))
     out = diagnose_arrays(pa, tk, tdk, z, airmass="marine")
     assert int(out["precipitation_type"]) == 8
     deck = out["in_cloud"]
     assert (out["large_drop"][P_HPA >= 700] == 1).all()
-    assert (out["large_drop_potential"][deck] == 2).all() and (out["large_drop_reason"][deck] == 1).all()
+    assert (out["large_drop_potential"][deck] == 1).all() and (out["large_drop_reason"][deck] == 1).all()
     pa, tk, tdk, z = _column(*nodes, cloud=(950.0, 600.0))
     out = diagnose_arrays(pa, tk, tdk, z, airmass="marine")
     assert int(out["precipitation_type"]) == 1

@@ -577,7 +577,11 @@ def _summary(route, ac, seg, step_s):
         "best_altitude_plan_accretion_mm": float(best.sum()) if np.isfinite(best).all() else unknown,
         "segments_missing_data": n_missing, "segments_partial_data": n_partial,
         "data_complete": bool(n_missing == 0 and n_partial == 0),
-        "notes": list(getattr(route, "notes", []) or []),
+        "notes": list(getattr(route, "notes", []) or []) + ([] if ac.icing_certified or not codes.size
+                                                             or codes.max() <= 0 else [
+            f"{ac.name} is not certified for flight in icing conditions: any supercooled liquid met on this route "
+            "is beyond its approval, whatever the word; its words are those of the accretion rate alone, without "
+            "the Appendix C hold of certified aircraft"]),
         "intensity_note": INTENSITY_NOTE,
         "caution": CAUTION,
     }

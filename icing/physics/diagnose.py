@@ -127,7 +127,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         Output rows: large drops (0 none, 1 drizzle, 2 rain), cloud kind (0 none, 1 stratiform, 2 convective),
         large-drop potential (:data:`icing.physics.precipitation.LARGE_DROP_POTENTIAL`) and reason
         (:data:`icing.physics.precipitation.LARGE_DROP_REASONS`).
-    scratch_f, scratch_b, scratch_i : ndarray (12, n), (6, n), (8, n)
+    scratch_f, scratch_b, scratch_i : ndarray (14, n), (6, n), (8, n)
         Work space (float, bool, int64).
 
     Returns
@@ -157,6 +157,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     lnt, rh_c, z_agl, min_rh, zb, parcel, lwc_ad, area = (scratch_f[0], scratch_f[1], scratch_f[2], scratch_f[3],
                                                           scratch_f[4], scratch_f[5], scratch_f[6], scratch_f[7])
     layer_area, above_base, layer_limit, layer_sure = scratch_f[8], scratch_f[9], scratch_f[10], scratch_f[11]
+    grow, grow_upper = scratch_f[12], scratch_f[13]
     model, rain_melted = scratch_b[2], scratch_b[5]
     starts, ends = scratch_i[2], scratch_i[3]
     layer_start, layer_of = scratch_i[4], scratch_i[5]
@@ -234,10 +235,13 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         mvd_out[k] = microphysics.mean_volume_diameter(lwc / 1000.0, n_drop) * mvd_ratio * 1e6 if lwc > 0 else np.nan
     # precipitation: its source (the highest layer whose snow does not sublimate on the way down), the type at
     # the ground, large drops with their grade and reason
+    for k in range(n):  # the liquid water (kg/m3) for the droplet size of warm rain: estimated, and the most
+        grow[k] = lwc_out[k] / 1000.0 if np.isfinite(lwc_out[k]) else 0.0
+        grow_upper[k] = 2.0 * grow[k] if model[k] else lwc_ad[k] * lf_out[k]
     below = n
     while True:
         src, src_phase, any_drizzle, src_grade = precipitation.precipitation_source(
-            z_agl, zb, t, lwc_ad, lf_out, starts, ends, nr, settings[2], dz_top_t, dz_cold_top_t, rv_coalescence,
+            z_agl, zb, t, grow, grow_upper, starts, ends, nr, settings[2], dz_top_t, dz_cold_top_t, rv_coalescence,
             n_drop, below, drizzle_src)
         if src < 0 or src_phase != precipitation.SNOW:
             break
@@ -266,7 +270,7 @@ def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_r
     """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
     when unused); outputs (5, P, n), (3, P, n), (4, P, n), (P,), (P,)."""
     npro, n = t.shape
-    scratch_f = np.empty((12, n))
+    scratch_f = np.empty((14, n))
     scratch_b = np.empty((6, n), np.bool_)
     scratch_i = np.empty((8, n), np.int64)
     lnp = np.empty(n)

@@ -188,7 +188,8 @@ def intensity_for_conditions(rate_code, lwc_g_m3, mvd_um, temperature_c, large_d
     conditions within the continuous maximum (LWC at or under it at the level's temperature and MVD, MVD up to
     40 um) and without large drops read at most moderate (3), whatever the rate on the small reference body;
     liquid above the continuous maximum, drops larger than 40 um or supercooled large drops (``large_drop`` 1
-    or 2, Appendix O) read at least moderate where ice grows, for any aircraft. Between, the rate's word
+    or 2, Appendix O) read at least moderate where ice grows, for any aircraft; below 0 degC supercooled large
+    drops read at least moderate even without cloud water (freezing rain in clear air). Between, the rate's word
     stands (trace < 1/4, light 1/4-1, moderate 1-3, severe > 3 in/h on the reference body: see
     :data:`icing.physics.accretion.INTENSITY_NOTE`). The words never fall as LWC rises: the rate rises with
     it, and leaving the envelope only lifts the cap and sets the floor. Temperatures colder than -30 degC
@@ -197,6 +198,12 @@ def intensity_for_conditions(rate_code, lwc_g_m3, mvd_um, temperature_c, large_d
     code = np.asarray(rate_code).astype(np.int8)
     shape = np.broadcast_shapes(code.shape, *(np.shape(x) for x in (lwc_g_m3, mvd_um, temperature_c, large_drop)))
     out = np.array(np.broadcast_to(code, shape))
+    # Supercooled large drops ice whatever the cloud water (freezing rain falls through clear air too): where
+    # they are, below 0 degC, a known word is at least moderate.
+    with np.errstate(invalid="ignore"):  # (NaN compares False: unknown drops or temperature change nothing)
+        in_large = (np.asarray(large_drop) > 0) & (np.asarray(temperature_c) <= 0.0) & (out >= 0)
+    if in_large.any():
+        out = np.where(in_large, np.maximum(out, 3), out).astype(np.int8)
     growing = np.flatnonzero(out >= 1)  # only where ice grows can the word change (a few levels of a grid)
     if growing.size == 0:
         return out

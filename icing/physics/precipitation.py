@@ -93,41 +93,39 @@ def energy_areas_in_column(lnp, lnt, t, area):
 
 
 @jitable
-def warm_rain_grade(lwc, number_concentration, mean_volume_radius_threshold):
-    """Grade (0 no, 1 possible, 2 likely) of warm rain by collision-coalescence in a cloud whose largest liquid
-    water content is ``lwc`` (kg/m3) with ``number_concentration`` droplets per m3.
+def warm_rain_grade(lwc, lwc_upper, number_concentration, mean_volume_radius_threshold):
+    """Grade (0 no, 1 possible, 2 likely) of warm rain by collision-coalescence in a cloud layer: likely where the
+    mean volume radius of its droplets at the layer's largest estimated liquid water content ``lwc`` (kg/m3),
+    with ``number_concentration`` droplets per m3, reaches the threshold for coalescence; possible where it does
+    only at ``lwc_upper``, the most the layer can hold (the adiabatic value, or twice a model's cloud water: an
+    LWC is uncertain by a factor of two).
 
-    The cloud's mean volume radius at that LWC (:func:`icing.physics.microphysics.mean_volume_diameter` / 2)
-    against the threshold for coalescence, the effective radius ``warm_rain_effective_radius_m`` of
-    :data:`icing.physics.cloud.CLOUD_DEFAULTS` as a mean volume radius (the caller converts it with the
-    spectrum shape of Martin et al. 1994). Likely at or above the threshold; possible
-    within the uncertainty of an LWC from a sounding (a factor of two, so 2^(1/3) in radius) below it. Depth
-    and droplet number enter through the LWC at the top of the cloud and the number: a deep cloud with few
-    droplets grows large ones (Rasmussen et al. 2002), a thin or polluted one does not.
+    The radius is :func:`icing.physics.microphysics.mean_volume_diameter` / 2; the threshold is the effective
+    radius ``warm_rain_effective_radius_m`` of :data:`icing.physics.cloud.CLOUD_DEFAULTS` as a mean volume
+    radius (the caller converts it with the spectrum shape of Martin et al. 1994). Depth and droplet number
+    enter through the water at the top of the cloud and the number: a deep cloud with few droplets grows large
+    ones (Rasmussen et al. 2002), a thin or polluted one does not.
     """
-    rv = 0.5 * microphysics.mean_volume_diameter(lwc, number_concentration)
-    if rv >= mean_volume_radius_threshold:
+    if 0.5 * microphysics.mean_volume_diameter(lwc, number_concentration) >= mean_volume_radius_threshold:
         return 2
-    if rv >= mean_volume_radius_threshold / 1.2599210498948732:  # 2 ** (1/3)
+    if 0.5 * microphysics.mean_volume_diameter(lwc_upper, number_concentration) >= mean_volume_radius_threshold:
         return 1
     return 0
 
 
 @jitable
-def precipitation_source(z, zb, t, lwc_adiabatic, liquid_fraction, starts, ends, nr, min_cloud_base,
-                         drizzle_top_temperature,
+def precipitation_source(z, zb, t, lwc, lwc_upper, starts, ends, nr, min_cloud_base, drizzle_top_temperature,
                          drizzle_cold_top_temperature, mean_volume_radius_threshold, number_concentration,
                          below_level, drizzle_grade):
     """The highest cloud layer of a column able to precipitate, and the layers that can grow freezing drizzle.
 
     ``starts``/``ends`` hold the ``nr`` cloud layers (runs of levels, bottom up), ``z`` the height above
     ground and ``zb`` the cloud-boundary heights between levels (:func:`icing.physics.cloud.cloud_in_column`);
-    ``lwc_adiabatic`` (kg/m3) the adiabatic condensate of each level's layer parcel and ``liquid_fraction`` its
-    liquid share. Droplets grow by condensation about as in an adiabatic parcel even where mixing thins the
-    cloud's water (mixing mostly removes droplets, not their size), so the size that starts coalescence is
-    reached at a height above the base set by the adiabatic water and the droplet number: Freud and Rosenfeld
-    (2012) found the depth at which the effective radius reaches 14 um grows in proportion to the droplet
-    number at the base.
+    ``lwc`` (kg/m3) the estimated liquid water content of each level and ``lwc_upper`` the most it can be (the
+    adiabatic liquid of the layer's parcel; twice a model's cloud water). Droplets may grow about as in an
+    adiabatic parcel even where mixing thins the cloud's water (mixing can remove droplets rather than shrink
+    them), so the size that starts coalescence is reached somewhere between the two: Freud and Rosenfeld (2012)
+    found the depth at which the effective radius reaches 14 um grows with the droplet number at the base.
 
     * A layer whose top is colder than ``drizzle_top_temperature`` (default -10 degC) makes ice there and snows.
     * A layer whose top is warmer than 0 degC rains by collision-coalescence where :func:`warm_rain_grade`
@@ -163,11 +161,13 @@ def precipitation_source(z, zb, t, lwc_adiabatic, liquid_fraction, starts, ends,
         w = (top - z[e]) / (z[e1] - z[e]) if e1 > e else 0.0
         t_top = t[e] + w * (t[e1] - t[e]) if (np.isfinite(w) and np.isfinite(t[e1])) else t[e]
         lwc_max = 0.0
+        upper_max = 0.0
         for k in range(s, e + 1):
-            w_k = lwc_adiabatic[k] * liquid_fraction[k]
-            if w_k > lwc_max:
-                lwc_max = w_k
-        wr = warm_rain_grade(lwc_max, number_concentration, mean_volume_radius_threshold)
+            if lwc[k] > lwc_max:
+                lwc_max = lwc[k]
+            if lwc_upper[k] > upper_max:
+                upper_max = lwc_upper[k]
+        wr = warm_rain_grade(lwc_max, upper_max, number_concentration, mean_volume_radius_threshold)
         layer_phase = NONE
         layer_grade = 0
         if t_top > thermo.T0:
