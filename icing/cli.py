@@ -210,6 +210,13 @@ def _add_verify_parser(sub):
                     "e.g. --format json")
     vp.add_argument("--out", metavar="DIR", help="also write matches.csv, scores.json and reliability.png; "
                     "e.g. --out verification/")
+    vp.add_argument("--spread", action="store_true", help="also run the seeded ensemble of the chain's "
+                    "assumptions at every report (as 'icing screen --spread') and verify its shares p_light, "
+                    "p_moderate, p_severe with reliability tables; e.g. --spread --members 50")
+    vp.add_argument("--members", type=int, default=30, metavar="N", help="members of the --spread ensemble "
+                    "(default 30); e.g. --members 50")
+    vp.add_argument("--seed", type=int, default=0, metavar="S", help="seed of the --spread ensemble (default 0); "
+                    "e.g. --seed 7")
     _add_reader_options(vp)
     _add_physics_options(vp)
     return vp
@@ -226,14 +233,20 @@ def _verify(args):
     if args.model:
         from icing.flight.gridsource import GridSource
 
-        source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
+        if _has_members(args.model):
+            from icing.flight.spread import ModelEnsemble
+
+            source = ModelEnsemble(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
+        else:
+            source = GridSource(args.model, cold_limit=args.cold_limit, airmass=args.airmass)
     else:
         from icing.flight.assess import atmosphere_source
 
         source = atmosphere_source(args.soundings, max_distance_km=args.max_distance, max_age_hours=args.max_age,
                                    cold_limit=args.cold_limit, airmass=args.airmass, stations=args.stations,
                                    reference_time=args.reference_time, units=_units_option(args.units))
-    result = verify_reports(reports, source, args.aircraft, max_minutes=args.max_minutes)
+    result = verify_reports(reports, source, args.aircraft, max_minutes=args.max_minutes, spread=args.spread,
+                            members=args.members, seed=args.seed)
     if args.out:
         written = result.write(args.out)
         print(f"wrote {', '.join(str(p) for p in written)}", file=sys.stderr)

@@ -153,3 +153,25 @@ def test_level_from_the_icing_layer_when_the_flight_level_is_unknown(source):
     m = res.matches.iloc[0]
     assert m["flight_level"] == 80.0 and m["counted"] and res.table.a == 1
     assert "icing layer" in m["reason"]
+
+
+def test_spread_shares_at_reports(source):
+    """With spread=True every usable report gets the shares of the assumption ensemble (as assess_route's):
+    in the supercooled layer (FL080) some members find icing, in the dry air 15-20 K below saturation above it
+    (FL200) none does, whatever the cloud threshold within its +-4 % range (Zhang et al. 2010 thresholds); the
+    shares are ordered (light >= moderate >= severe) and each has its reliability table against reported
+    intensities at that word or worse (Wilks 2011, ch. 8)."""
+    reports = parse_pireps(REPORTS, DATE)
+    res = verify_reports(reports, source, spread=True, members=8, seed=1)
+    m = res.matches
+    inside = (m["flight_level"] == 80) & (m["data"].astype(str) == "ok")
+    above = (m["flight_level"] == 200) & (m["data"].astype(str) == "ok")
+    assert (m.loc[inside, "p_light"] > 0).all() and (m.loc[above, "p_light"] == 0).all()
+    ok = m["data"].astype(str) == "ok"
+    assert (m.loc[ok, "p_light"] >= m.loc[ok, "p_moderate"]).all()
+    assert (m.loc[ok, "p_moderate"] >= m.loc[ok, "p_severe"]).all()
+    assert {"p_light", "p_moderate", "p_severe"} <= set(res.reliability)
+    # without data every member is unknown and counts at every intensity (never safe); unusable: no share
+    missing = m["data"].astype(str) == "missing"
+    assert (m.loc[missing, ["p_light", "p_moderate", "p_severe"]] == 1.0).all().all()
+    assert m.loc[m["data"].astype(str) == "unusable", "p_light"].isna().all()

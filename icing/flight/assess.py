@@ -175,7 +175,7 @@ def _segment_intensity(codes, cov, starts):
     return status, np.where(missing | ((status == 1) & (code <= 0)), len(INTENSITIES), np.clip(code, 0, 4))
 
 
-def _member_outcome(atm, members, *, tas_ms, duration_s, starts, body_diameter_m, icing_certified):
+def member_outcome(atm, members, *, tas_ms, duration_s, starts, body_diameter_m, icing_certified):
     """Per segment of ``members`` stacked runs of the same samples: intensity codes (0-4, 5 unknown) and
     accretion (mm, NaN without data), (members, segments) each: the scoring of :func:`_segment_tables`."""
     n = tas_ms.size
@@ -370,7 +370,7 @@ def assess_routes(routes, soundings, aircraft="turboprop", *, step_s=60.0, depar
         from icing.flight.spread import route_spread
 
         starts, _ = _segment_starts(rts, traj["route"].to_numpy(), traj["leg"].to_numpy())
-        outcome = partial(_member_outcome, tas_ms=tas, duration_s=traj["duration_s"].to_numpy(), starts=starts,
+        outcome = partial(member_outcome, tas_ms=tas, duration_s=traj["duration_s"].to_numpy(), starts=starts,
                           body_diameter_m=ac.body_diameter_m, icing_certified=ac.icing_certified)
         built = hasattr(soundings, "sample")
         ensemble = route_spread(source, _sample_points(traj)[0], outcome, members=members, seed=seed,

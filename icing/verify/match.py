@@ -186,18 +186,45 @@ def _forecast_intensity(atm, known_icing, altitude_ft, aircraft):
     return code
 
 
+def _report_spread(source, aircraft, lat, lon, times, pressure, fl, idx, n, members, seed):
+    """``p_light``, ``p_moderate``, ``p_severe`` (n,) at the usable reports ``idx``: each report one segment of a
+    single sample, scored as a route's segments are (:func:`icing.flight.assess.member_outcome`)."""
+    from functools import partial
+
+    from icing.flight.assess import member_outcome
+    from icing.flight.spread import LEVELS, route_spread
+
+    points = {"latitude": lat, "longitude": lon, "time": times, "pressure": pressure,
+              "height": np.full(lat.size, np.nan)}
+    tas = np.asarray(aircraft.true_airspeed_ms("cruise", np.nan_to_num(fl) * 100.0), dtype=float).reshape(-1)
+    outcome = partial(member_outcome, tas_ms=tas, duration_s=np.full(lat.size, 60.0), starts=np.arange(lat.size),
+                      body_diameter_m=aircraft.body_diameter_m, icing_certified=aircraft.icing_certified)
+    ensemble = route_spread(source, points, outcome, members=members, seed=seed)
+    out = {}
+    for k in LEVELS:
+        full = np.full(n, np.nan)
+        full[idx] = ensemble["columns"][k]
+        out[k] = full
+    return out
+
+
 def _p_event(name, observed, observed_intensity):
-    """The observed event a ``p_*`` share forecasts: ``p_icing``/``p_any`` any icing; ``p_<word>`` (none,
-    trace, light, moderate, severe) the reported word being that one (a share of members in that class)."""
+    """The observed event a ``p_*`` share forecasts: ``p_icing``/``p_any`` any icing; ``p_<word>`` (trace,
+    light, moderate, severe) icing reported at that word or worse (the shares of members at that intensity or
+    worse of ``assess_route(spread=True)``); a null report (/IC NEG) is no event."""
     word = name[2:]
     if word in ("icing", "any"):
         return observed
-    if word in INTENSITY_ORDER:
-        return [None if (w is None or w != w) else (w == word) for w in observed_intensity]
+    if word in INTENSITY_ORDER and word != "none":
+        rank = INTENSITY_ORDER.index(word)
+        return [False if o is False else (None if (w is None or w != w or w not in INTENSITY_ORDER)
+                                         else INTENSITY_ORDER.index(w) >= rank)
+                for o, w in zip(observed, observed_intensity, strict=True)]
     return None
 
 
-def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MINUTES, bins=10) -> Verification:
+def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MINUTES, bins=10, spread=False,
+                   members=30, seed=0) -> Verification:
     """Verify the diagnosis of an atmosphere source against pilot reports.
 
     Parameters
@@ -217,6 +244,12 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
         ``stale``: unknown (default :data:`DEFAULT_MAX_MINUTES`, 6 h).
     bins : int
         Number of equal probability bins of the reliability tables.
+    spread, members, seed :
+        With ``spread=True`` the chain also runs over the seeded ensemble of its assumptions
+        (:func:`icing.flight.spread.route_spread`, as ``assess_route(spread=True)``; a
+        :class:`~icing.flight.spread.ModelEnsemble` over its members) at every report, whose shares ``p_light``,
+        ``p_moderate`` and ``p_severe`` (members at that intensity or worse) then go into the matches and the
+        reliability tables against the reported intensities.
 
     Returns
     -------
@@ -284,8 +317,13 @@ def verify_reports(reports, source, aircraft=None, *, max_minutes=DEFAULT_MAX_MI
     atm["pressure"] = np.where(np.isfinite(atm["pressure"]), atm["pressure"], pressure)
     cov = np.nan_to_num(atm["coverage"])
     lwc = np.nan_to_num(atm["lwc"])
-    icing_here = usable & (cov > 0) & (lwc > 0) & (np.nan_to_num(atm["supercooled"]) > 0) \
-        & (np.nan_to_num(atm["temperature"], nan=1.0) < 0.0)
+    cold = np.nan_to_num(atm["temperature"], nan=1.0) < 0.0
+    # icing where there is supercooled cloud liquid, or supercooled large drops (freezing rain in clear air too)
+    icing_here = usable & (cov > 0) & cold & (((lwc > 0) & (np.nan_to_num(atm["supercooled"]) > 0))
+                                              | (np.nan_to_num(atm["large_drop"]) > 0))
+    if spread and idx.size:
+        atm.update(_report_spread(source, ac, lat[idx], lon[idx], t64, pressure[idx], fl[idx], idx, n, members,
+                                  seed))
     stale = usable & (cov > 0) & (atm["age_h"] * 60.0 > max_minutes)
     data = np.where(~usable, "unusable", np.where(cov <= 0, "missing", np.where(
         stale, "stale", np.where(cov >= FULL, "ok", "partial"))))
