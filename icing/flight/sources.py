@@ -142,20 +142,32 @@ class SoundingSource:
     def _prepare_columns(self):
         d = self.diagnostics
         n = d.sizes["profile"]
+        fields = {name: np.asarray(d[name].values, dtype=float) for name in (
+            "height", "temperature", "lwc", "mvd", "rh_water", "supercooled", "in_cloud", "valid", "large_drop",
+            "warm_layer_aloft")}
+        # Unknown (NaN) as 0 once here for all profiles rather than at every sampling: LWC and MVD (none),
+        # validity (not valid), the fields averaged over the matched reports (read only where the levels are
+        # valid) and the large drops (none where unknown); the large-drop potential and its reason in one
+        # number, potential x 4 + reason (as integers).
+        def zero_nan(v):
+            return np.where(np.isfinite(v), v, 0.0)
+
+        for name in ("lwc", "mvd", "valid", "large_drop"):
+            fields[name] = zero_nan(fields[name])
+        for name in ("temperature", "supercooled", "in_cloud", "rh_water"):
+            fields[name + "_or_0"] = zero_nan(fields[name])
+        fields["large_code"] = 4 * zero_nan(np.asarray(d["large_drop_potential"].values, dtype=float)) + zero_nan(
+            np.asarray(d["large_drop_reason"].values, dtype=float))
+        for name in ("wind_speed", "wind_direction"):
+            if name in self.profiles:
+                fields[name] = np.asarray(self.profiles[name].values, dtype=float)
+        pressure = np.asarray(d["pressure"].values, dtype=float) * 100.0
         self._cols = []
         for j in range(n):
-            p = d["pressure"].values[j] * 100.0
-            ok = np.isfinite(p)
-            col = {"lnp": -np.log(p[ok])}
-            for name in ("height", "temperature", "lwc", "mvd", "rh_water", "supercooled", "in_cloud", "valid",
-                         "large_drop", "warm_layer_aloft", "large_drop_potential", "large_drop_reason"):
-                col[name] = np.asarray(d[name].values[j][ok], dtype=float)
-            col["lwc"] = np.where(np.isfinite(col["lwc"]), col["lwc"], 0.0)
-            col["mvd"] = np.where(np.isfinite(col["mvd"]), col["mvd"], 0.0)
-            col["valid"] = np.where(np.isfinite(col["valid"]), col["valid"], 0.0)
-            for name in ("wind_speed", "wind_direction"):
-                if name in self.profiles:
-                    col[name] = np.asarray(self.profiles[name].values[j][ok], dtype=float)
+            ok = np.isfinite(pressure[j])
+            col = {"lnp": -np.log(pressure[j][ok])}
+            for name, v in fields.items():
+                col[name] = v[j][ok]
             col.update(self._column_scalars(col))
             self._cols.append(col)
 
@@ -279,7 +291,7 @@ class SoundingSource:
             acc["lwc"][rows] += ww * lwc
             acc["lwc_mvd"][rows] += ww * lwc * at("mvd")
             for name in ("temperature", "supercooled", "in_cloud", "rh_water"):
-                acc[name][rows] += ww * np.nan_to_num(at(name))
+                acc[name][rows] += ww * at(name + "_or_0")
             acc["pressure"][rows] += ww * np.exp(-np.where(inside, x, 0.0))
             if "wind_speed" in col:
                 spd, dirn = col["wind_speed"], np.radians(col["wind_direction"])
@@ -293,10 +305,9 @@ class SoundingSource:
                     acc["wind_u"][rows] += np.where(wok, ww * uu, 0.0)
                     acc["wind_v"][rows] += np.where(wok, ww * vv, 0.0)
                     acc["wind_w"][rows] += np.where(wok, ww, 0.0)
-            ld = np.maximum(np.nan_to_num(col["large_drop"][lo]), np.nan_to_num(col["large_drop"][hi]))
+            ld = np.maximum(col["large_drop"][lo], col["large_drop"][hi])
             large[rows] = np.maximum(large[rows], np.where(ok, ld, 0.0))
-            pot, why = np.nan_to_num(col["large_drop_potential"]), np.nan_to_num(col["large_drop_reason"])
-            code = np.maximum(4 * pot[lo] + why[lo], 4 * pot[hi] + why[hi])
+            code = np.maximum(col["large_code"][lo], col["large_code"][hi])
             large_code[rows] = np.maximum(large_code[rows], np.where(ok, code, 0.0))
             if np.isfinite(col["freezing_level_m"]):
                 acc["fz"][rows] += w[rows, j] * col["freezing_level_m"]

@@ -55,7 +55,7 @@ LARGE_DROP_REASONS = {
 SNOWFLAKE_MASS = (0.073e-6 / 1e-3**1.4, 1.4)  # m = a D^b: a in kg/m^1.4, D in m
 SNOWFLAKE_SPEED = (0.8 / 1e-3**0.16, 0.16)  # v = c D^d: c in (m/s)/m^0.16
 SNOWFLAKE_DIAMETER_M = 5e-3
-_SUBLIMATION_STEP_M = 25.0  # fall steps (m) of the sublimation integral
+_SUBLIMATION_STEP_M = 400.0  # longest fall step (m) of the sublimation integral
 
 
 @jitable
@@ -193,12 +193,25 @@ def precipitation_source(z, zb, t, lwc, lwc_upper, starts, ends, nr, min_cloud_b
 
 
 @jitable
+def _flake_size_rate(size, coef, nu, sc3):
+    """dD/dz (1/1, negative) of the representative snowflake of size D (m) falling through air whose loss
+    coefficient is ``coef`` = 4 (1 - S_i) / (F_k + F_d) (kg/(m s)), kinematic viscosity ``nu`` and Schmidt
+    number^(1/3) ``sc3``: 4 D f (1 - S_i) / (F_k + F_d) / v, over dm/dD = a b D^(b-1)."""
+    a, b = SNOWFLAKE_MASS
+    c, d = SNOWFLAKE_SPEED
+    ln_d = np.log(size)
+    v = c * np.exp(d * ln_d)
+    vent = 0.86 + 0.28 * sc3 * np.sqrt(v * size / nu)
+    return -coef * size * vent / (v * a * b * np.exp((b - 1.0) * ln_d))
+
+
+@jitable
 def snow_sublimation_level(z, p, t, rh_ice, in_cloud, start):
     """The level at which snow falling from the base of a cloud layer (its lowest level ``start``) has
     sublimated away, or -1 if it reaches air above 0 degC (where it melts) or the lowest level.
 
     The mass of the representative snowflake (:data:`SNOWFLAKE_MASS`, :data:`SNOWFLAKE_SPEED`,
-    :data:`SNOWFLAKE_DIAMETER_M`) is followed down in steps of 25 m through the air below the layer: inside
+    :data:`SNOWFLAKE_DIAMETER_M`) is followed down through the air below the layer: inside
     other cloud (saturated) it keeps its mass; in air below ice saturation it loses mass at the rate of
     diffusional growth with the sign reversed,
 
@@ -209,11 +222,10 @@ def snow_sublimation_level(z, p, t, rh_ice, in_cloud, start):
     (Rogers and Yau 1989, A Short Course in Cloud Physics, eqs. 7.17-7.18 and 9.4), with the air's thermal
     conductivity K and vapour diffusivity D_v of :mod:`icing.physics.thermo`, the ice saturation ratio
     S_i = RH over ice / 100 and T, p of the interval (the mean of its two levels), and the flake's fall speed.
+    Its size is integrated over height, dD/dz = (dm/dt) / (v dm/dD), by the midpoint rule in steps of at most
+    400 m (one or two a level interval of a sounding).
     """
-    a, b = SNOWFLAKE_MASS
-    c, d = SNOWFLAKE_SPEED
     size = SNOWFLAKE_DIAMETER_M
-    mass = a * size**b
     l_s = 2.834e6  # J/kg, latent heat of sublimation near 0 degC
     for k in range(start - 1, -1, -1):
         if not (np.isfinite(t[k]) and np.isfinite(z[k]) and np.isfinite(z[k + 1])):
@@ -225,20 +237,21 @@ def snow_sublimation_level(z, p, t, rh_ice, in_cloud, start):
             continue
         tt = 0.5 * (t[k] + t[k + 1])
         pp = 0.5 * (p[k] + p[k + 1])
+        dv = thermo.vapor_diffusivity(tt, pp)
         f_k = (l_s / (thermo.RV * tt) - 1.0) * l_s / (thermo.air_thermal_conductivity(tt) * tt)
-        f_d = thermo.RV * tt / (thermo.vapor_diffusivity(tt, pp) * np.exp(
-            thermo.ln_saturation_vapor_pressure_ice(tt, np.log(tt))))
+        f_d = thermo.RV * tt / (dv * np.exp(thermo.ln_saturation_vapor_pressure_ice(tt, np.log(tt))))
+        coef = 4.0 * (1.0 - s_i) / (f_k + f_d)
         nu = thermo.air_viscosity(tt) * thermo.RD * tt / pp  # kinematic viscosity, m2/s
-        sc = nu / thermo.vapor_diffusivity(tt, pp)
+        sc3 = (nu / dv) ** (1.0 / 3.0)
         depth = z[k + 1] - z[k]
         steps = max(int(np.ceil(depth / _SUBLIMATION_STEP_M)), 1)
-        dz = depth / steps
+        h = depth / steps
         for _ in range(steps):
-            size = (mass / a) ** (1.0 / b)
-            v = c * size**d
-            vent = 0.86 + 0.28 * sc ** (1.0 / 3.0) * np.sqrt(v * size / nu)
-            mass -= 4.0 * size * vent * (1.0 - s_i) / (f_k + f_d) * dz / v  # 4 pi C with C = D / pi
-            if mass <= 0.0:
+            mid = size + 0.5 * h * _flake_size_rate(size, coef, nu, sc3)
+            if not mid > 0.0:
+                return k
+            size = size + h * _flake_size_rate(mid, coef, nu, sc3)
+            if not size > 0.0:
                 return k
     return -1
 
