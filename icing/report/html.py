@@ -290,6 +290,15 @@ def _glance(assessment) -> list[str]:
         ['<ul class="notes" aria-label="notes">'] + notes + ["</ul>"] if notes else [])
 
 
+def _large_drops_text(row) -> str:
+    """The kind of supercooled large drops with their grade where there are any: "rain, likely"."""
+    kind = _word(row.get("large_drops"))
+    grade = row.get("large_drop_potential")
+    if kind in ("none", "unknown") or _missing(grade) or str(grade) == "none":
+        return kind
+    return f"{kind}, {grade}"
+
+
 def _detail_items(row) -> list[tuple[str, str]]:
     items = []
     for c in DETAILS:
@@ -350,7 +359,7 @@ def _segment_table(assessment) -> list[str]:
             cells += [("moderate or worse", _e(_share(row.get("p_moderate"))), ""),
                       ("accretion 10-90 % mm", "unknown" if blank else _e(_range(row)), "")]
         cells += [("ice type", _e(_word(row.get("ice_type"))), "t"),
-                 ("large drops", _e(_word(row.get("large_drops"))), "t"),
+                 ("large drops", _e(_large_drops_text(row)), "t"),
                  ("data", _data_badge(data), "t st")]
         out.append(f'<tr class="seg r-{_e(data)}" data-segment="{_e(row["segment"])}" data-data="{_e(data)}" '
                    f'data-intensity="{_e(word)}">'
