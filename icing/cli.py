@@ -525,7 +525,8 @@ LAYER_COLUMNS = [("base_height_ft", "base ft", 0), ("top_height_ft", "top ft", 0
                  ("base_pressure_hpa", "base hPa", 0), ("top_pressure_hpa", "top hPa", 0),
                  ("base_temperature_c", "base degC", 1), ("top_temperature_c", "top degC", 1),
                  ("thickness_m", "thick m", 0), ("max_lwc_g_m3", "max LWC g/m3", 2), ("mvd_um", "MVD um", 0),
-                 ("kind", "kind", None), ("large_drop", "large drops", None), ("quality", "quality", None)]
+                 ("kind", "kind", None), ("large_drop", "large drops", None),
+                 ("large_drop_potential", "potential", None), ("quality", "quality", None)]
 
 
 def _text_table(frame, spec):
