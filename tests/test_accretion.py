@@ -48,9 +48,9 @@ def test_nusselt_churchill_bernstein_hand_value():
 # ------------------------------------------------------------------------------------ collision efficiency
 # Langmuir and Blodgett (1946), Table II: overall collection efficiency E_m of a circular cylinder against the
 # inertia parameter K at fixed range parameter phi (their Stokes-law K and phi = Re^2/K, as here). The values are
-# the report's, as transcribed from Table II in a public re-analysis of the report (icinganalysis.github.io,
-# file icinganalysis/langmuir_blodgett_table_ii.py, "table_II_original_data"); the printed table itself was not
-# seen. Two K grids alternate between the rows, as in the report.
+# the report's, as transcribed from Table II in a public re-analysis of the report (a hand transcription of the
+# table's original data); the printed table itself was not seen. Two K grids alternate between the rows, as in the
+# report.
 _K_A = (0.144, 0.196, 0.256, 0.4, 0.625, 0.9, 1.6, 3.6, 6.4, 10, 19.6, 32.4, 62.5, 90, 160, 360, 640, 1000)
 _K_B = (0.16, 0.25, 0.36, 0.64, 1, 1.96, 3.24, 6.25, 9, 16, 36, 64, 100, 196, 324, 625, 900)
 LB_TABLE_II_EM = {
