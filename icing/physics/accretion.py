@@ -49,6 +49,9 @@ from icing.physics.jit import jitable
 from icing.physics.thermo import (
     CP_D,
     EPSILON,
+    L_FUSION,
+    L_SUBLIMATION,
+    L_VAPOUR,
     RD,
     RV,
     T0,
@@ -71,9 +74,6 @@ __all__ = [
 
 RHO_WATER = 1000.0  # kg/m3, the water density of Langmuir and Blodgett's K
 RHO_GLAZE = 917.0  # kg/m3, bubble-free ice near 0 deg C
-L_FUSION = 3.337e5  # J/kg at 0 deg C
-L_VAPOUR = 2.501e6  # J/kg at 0 deg C
-L_SUBLIMATION = L_FUSION + L_VAPOUR
 C_WATER = 4218.0  # J/(kg K), liquid water near 0 deg C
 C_ICE = 2106.0  # J/(kg K), ice near 0 deg C
 RECOVERY_FACTOR = 0.79  # of a cylinder, as in Makkonen (2000) (from memory)

@@ -226,7 +226,7 @@ def snow_sublimation_level(z, p, t, rh_ice, in_cloud, start):
     400 m (one or two a level interval of a sounding).
     """
     size = SNOWFLAKE_DIAMETER_M
-    l_s = 2.834e6  # J/kg, latent heat of sublimation near 0 degC
+    l_s = thermo.L_SUBLIMATION
     for k in range(start - 1, -1, -1):
         if not (np.isfinite(t[k]) and np.isfinite(z[k]) and np.isfinite(z[k + 1])):
             return -1  # beyond the data: assume it reaches down (unknown is never read as "no precipitation")

@@ -12,7 +12,7 @@ import numpy as np
 from icing.physics.jit import jitable
 
 __all__ = [
-    "RD", "RV", "EPSILON", "G0", "CP_D", "T0", "KAPPA",
+    "RD", "RV", "EPSILON", "G0", "CP_D", "T0", "KAPPA", "L_FUSION", "L_VAPOUR", "L_SUBLIMATION",
     "ln_saturation_vapor_pressure_water", "ln_saturation_vapor_pressure_ice",
     "saturation_vapor_pressure_water", "saturation_vapor_pressure_ice", "dewpoint_from_vapor_pressure",
     "air_viscosity", "air_thermal_conductivity", "vapor_diffusivity",
@@ -31,6 +31,9 @@ G0 = 9.80665  # m/s2, standard gravity (exact, used for geopotential metres)
 CP_D = 1004.6662184201462  # J/(kg K), dry air at constant pressure (as MetPy)
 T0 = 273.15  # K
 KAPPA = RD / CP_D  # Poisson's constant of dry air
+L_FUSION = 3.337e5  # J/kg, latent heat of fusion at 0 deg C
+L_VAPOUR = 2.501e6  # J/kg, latent heat of vaporisation at 0 deg C
+L_SUBLIMATION = L_FUSION + L_VAPOUR  # J/kg, at 0 deg C
 
 
 @jitable
