@@ -130,7 +130,7 @@ def segment_table(assessment) -> str:
     if (drops.notna() & (drops != "none")).any():
         why = ""
         if "large_drop_potential" in seg and "large_drop_reason" in seg:
-            parts = [f"segment {r.segment} {r.large_drops} {r.large_drop_potential} ({r.large_drop_reason})"
+            parts = [f"Segment {r.segment}: {r.large_drops} {r.large_drop_potential} ({r.large_drop_reason})"
                      for r in seg.itertuples() if not is_missing(r.large_drops) and str(r.large_drops) != "none"
                      and not is_missing(r.large_drop_potential)]
             why = " " + "; ".join(parts) + "." if parts else ""
