@@ -99,8 +99,8 @@ COLUMN_SETTINGS = cloud.CLOUD_SETTINGS + ("convective_excess_k", "stratiform_fac
 
 @jitable
 def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh_table, max_rh_table,
-                    inter_rh_table, adiabats, n_drop, mvd_ratio, out_f, out_b, out_i, scratch_f, scratch_b,
-                    scratch_i):
+                    inter_rh_table, adiabats, saturation, n_drop, mvd_ratio, out_f, out_b, out_i, scratch_f,
+                    scratch_b, scratch_i):
     """The icing diagnostics of one column (levels with pressure decreasing; gaps in t, td, z filled).
 
     Parameters
@@ -117,6 +117,8 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         The cloud thresholds (:mod:`icing.physics.cloud`).
     adiabats : tuple
         :func:`icing.physics.adiabat.moist_adiabat_tables`.
+    saturation : tuple
+        :func:`icing.physics.thermo.saturation_tables`.
     n_drop, mvd_ratio : float
         Droplet number (per m3) and the ratio of median to mean volume diameter of the spectrum.
     out_f : ndarray (5, n)
@@ -174,11 +176,9 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     for k in range(n):
         tk = t[k]
         tdk = td[k] if td[k] <= tk else (tk if td[k] == td[k] else td[k])  # dewpoint at most the temperature
-        lt = np.log(tk)
-        lnt[k] = lt
-        ln_e = thermo.ln_saturation_vapor_pressure_water(tdk, np.log(tdk))
-        rw = np.exp(ln_e - thermo.ln_saturation_vapor_pressure_water(tk, lt)) * 100.0
-        ri = np.exp(ln_e - thermo.ln_saturation_vapor_pressure_ice(tk, lt)) * 100.0
+        rw, ri = thermo.relative_humidities(tk, tdk, saturation)
+        rw *= 100.0
+        ri *= 100.0
         rh_w[k] = rw
         rh_i[k] = ri
         rh_c[k] = ri if tk < thermo.T0 else rw
@@ -266,7 +266,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
 
 
 def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_rh, max_rh, inter_rh, adiabats,
-                   n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
+                   saturation, n_drop, mvd_ratio, out_f, out_b, out_i, ptype, crossings):
     """:func:`diagnose_column` for every row of (P, n) arrays (``p`` may be one shared row, ``cl`` one row
     when unused); outputs (5, P, n), (3, P, n), (4, P, n), (P,), (P,)."""
     npro, n = t.shape
@@ -285,8 +285,8 @@ def _diagnose_rows(p, t, td, z, cl, has_cl, cold_limit, settings, heights, min_r
                 lnp[k] = np.log(p[i, k])
         ptype[i], crossings[i] = diagnose_column(
             p[ip], lnp, t[i], td[i], z[i], cl[i if has_cl else 0], has_cl, cold_limit, settings, heights, min_rh,
-            max_rh, inter_rh, adiabats, n_drop, mvd_ratio, out_f[:, i], out_b[:, i], out_i[:, i], scratch_f,
-            scratch_b, scratch_i)
+            max_rh, inter_rh, adiabats, saturation, n_drop, mvd_ratio, out_f[:, i], out_b[:, i], out_i[:, i],
+            scratch_f, scratch_b, scratch_i)
 
 
 @functools.lru_cache(maxsize=1)
@@ -299,7 +299,9 @@ def _compiled_rows():
 
     f8, b1, i1 = types.float64, types.boolean, types.int8
     ro1, ro2 = types.Array(f8, 1, "A", readonly=True), types.Array(f8, 2, "A", readonly=True)
-    signature = types.void(ro2, ro2, ro2, ro2, ro2, b1, f8, ro1, ro1, ro1, ro1, ro1, types.UniTuple(ro1, 5), f8, f8,
+    table = types.Array(f8, 1, "C", readonly=True)  # (the saturation tables: contiguous, indexed directly)
+    signature = types.void(ro2, ro2, ro2, ro2, ro2, b1, f8, ro1, ro1, ro1, ro1, ro1, types.UniTuple(ro1, 5),
+                           types.UniTuple(table, 2), f8, f8,
                            types.Array(f8, 3, "A"), types.Array(b1, 3, "A"), types.Array(i1, 3, "A"),
                            types.Array(i1, 1, "A"), types.Array(types.int64, 1, "A"))
     return jit(_diagnose_rows, signature)
@@ -402,7 +404,8 @@ def diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid=None, 
     kernel = _compiled_rows()
 
     ro = _read_only
-    shared = (ro(settings), *(ro(a) for a in tables), tuple(ro(a) for a in adiabat.moist_adiabat_tables()))
+    shared = (ro(settings), *(ro(a) for a in tables), tuple(ro(a) for a in adiabat.moist_adiabat_tables()),
+              thermo.saturation_tables())
     mvd_ratio = microphysics.mvd_to_mean_volume_ratio(airmass)
 
     def block(i):  # writes into its rows of the outputs; blocks of profiles stay in cache

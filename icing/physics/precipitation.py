@@ -265,7 +265,8 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, source
     Parameters
     ----------
     lnp, lnt, t : ndarray (n,)
-        ln p, ln T and T (K), pressure decreasing, gaps filled; NaN only beyond the data.
+        ln p, work space for ln T (filled here where the energy areas are needed) and T (K), pressure
+        decreasing, gaps filled; NaN only beyond the data.
     source_level, source_phase, source_grade : int
         Level of the top of the highest cloud able to precipitate (-1 if none), the phase it starts as and its
         grade (:func:`precipitation_source`).
@@ -317,6 +318,8 @@ def precipitation_type_in_column(lnp, lnt, t, source_level, source_phase, source
     if source_level < 0:  # nothing falls: the layers decide nothing
         return NONE if humidity_complete else -1
     if any_warm and any_cold:
+        for k in range(n):
+            lnt[k] = np.log(t[k])
         energy_areas_in_column(lnp, lnt, t, area)
     else:
         for k in range(n):
