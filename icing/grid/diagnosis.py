@@ -75,7 +75,7 @@ def column_summary(t, z, supercooled, levels):
     in m, lowest first, linear in height between the neighbouring levels with a temperature; NaN beyond the
     crossings found), and returns (lowest freezing level: the lowest level's height where it is already at or
     below 0 degC, else the first crossing; height of the lowest and of the highest supercooled level, NaN if
-    none). ``t`` in degC (a measured temperature counts without humidity), ``z`` in m."""
+    none). ``t`` in K (a measured temperature counts without humidity), ``z`` in m."""
     for c in range(levels.size):
         levels[c] = np.nan
     found = 0
@@ -92,14 +92,15 @@ def column_summary(t, z, supercooled, levels):
             top = max(top, z[k])
         if not (np.isfinite(t[k]) and np.isfinite(z[k])):
             continue
+        tc = t[k] - thermo.T0
         if not have_prev:
-            t_low, z_low = t[k], z[k]
-        elif (t_prev > 0) != (t[k] > 0):
+            t_low, z_low = tc, z[k]
+        elif (t_prev > 0) != (tc > 0):
             if found < levels.size:
-                levels[found] = z_prev + t_prev / (t_prev - t[k]) * (z[k] - z_prev)
+                levels[found] = z_prev + t_prev / (t_prev - tc) * (z[k] - z_prev)
             found += 1
         have_prev = True
-        t_prev, z_prev = t[k], z[k]
+        t_prev, z_prev = tc, z[k]
     lowest = z_low if t_low <= 0.0 else levels[0]
     if base > top:
         return lowest, np.nan, np.nan
@@ -118,6 +119,11 @@ def _compiled_summaries():
     return jit(_summary_rows)
 
 
+def _rows(a, shape, dtype=float):
+    """``a`` broadcast to ``shape`` as rows (-1, level), a view where the layout allows, else a copy."""
+    return np.broadcast_to(np.asarray(a, dtype=dtype), shape).reshape(-1, shape[-1])
+
+
 def column_summaries(temperature, height, supercooled, valid):
     """2-D summaries of columns (..., level), pressure decreasing along the level axis (plain SI).
 
@@ -129,17 +135,25 @@ def column_summaries(temperature, height, supercooled, valid):
     and highest supercooled levels, NaN if none): :func:`column_summary` on every column.
     """
     t = np.asarray(temperature, dtype=float)
-    shape = t.shape
-    n = shape[-1]
-    rows = lambda a, dtype=float: np.ascontiguousarray(np.broadcast_to(np.asarray(a, dtype=dtype), shape)  # noqa: E731
-                                                       ).reshape(-1, n)
-    npro = rows(t).shape[0]
+    shape = np.broadcast_shapes(t.shape, np.shape(height), np.shape(supercooled))
+    t_rows = _rows(t, shape)
+    npro = t_rows.shape[0]
     levels = np.empty((npro, N_FREEZING_LEVELS))
     lowest, base, top = np.empty(npro), np.empty(npro), np.empty(npro)
-    _compiled_summaries()(rows(t) - thermo.T0, rows(height), rows(supercooled, bool), levels, lowest, base, top)
+    _compiled_summaries()(t_rows, _rows(height, shape), _rows(supercooled, shape, bool), levels, lowest, base, top)
     lead = shape[:-1]
     return {"freezing_level_m": lowest.reshape(lead), "freezing_levels": levels.reshape(lead + (N_FREEZING_LEVELS,)),
             "supercooled_base_m": base.reshape(lead), "supercooled_top_m": top.reshape(lead)}
+
+
+def _icing_levels(supercooled, valid, lwc, idx):
+    """Flat indices of the levels with supercooled liquid (valid, LWC above 0) into ``idx``; returns how many."""
+    m = 0
+    for k in range(supercooled.size):
+        if supercooled[k] and valid[k] and lwc[k] > 0:
+            idx[m] = k
+            m += 1
+    return m
 
 
 @jitable
@@ -168,16 +182,38 @@ def column_potential(rate, valid, code):
     return worst, largest * 1000.0 * 3600.0
 
 
-def _potential_rows(rate, valid, code, worst, max_rate):
-    for i in range(rate.shape[0]):
+def _potential_rows(valid, idx, rate_at, ice_at, t, large, rate, ice, code, worst, max_rate, changeable):
+    """The accretion potential of every level from the rates (m/s) and ice types of the icing levels ``idx``
+    (flat indices; 0 and none at the other valid levels, NaN and -1 where not valid): codes and per-column
+    worst and largest rate (:func:`column_potential`), the rate then in mm/h. Returns how many flat indices
+    went into ``changeable``: the levels whose word the envelopes may change (ice grows, or supercooled large
+    drops below 0 degC), for :func:`icing.physics.envelopes.intensity_for_conditions`."""
+    npro, n = valid.shape
+    for i in range(npro):
+        for k in range(n):
+            rate[i, k] = 0.0 if valid[i, k] else np.nan
+            ice[i, k] = 0 if valid[i, k] else -1
+    for j in range(idx.size):
+        i, k = idx[j] // n, idx[j] % n
+        rate[i, k] = rate_at[j]
+        ice[i, k] = ice_at[j]
+    m = 0
+    for i in range(npro):
         worst[i], max_rate[i] = column_potential(rate[i], valid[i], code[i])
+        for k in range(n):
+            rate[i, k] *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
+            rate[i, k] *= 3600.0
+            if code[i, k] >= 1 or (code[i, k] >= 0 and large[i, k] > 0 and t[i, k] <= thermo.T0):
+                changeable[m] = i * n + k
+                m += 1
+    return m
 
 
 @functools.lru_cache(maxsize=1)
 def _compiled_potential():
     from icing.physics.jit import jit
 
-    return jit(_potential_rows)
+    return jit(_potential_rows), jit(_icing_levels)
 
 
 def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, airspeed=None, body_diameter=None,
@@ -208,39 +244,43 @@ def grid_core(pressure, temperature, dewpoint, height, cloud_liquid=None, *, air
     shape = np.broadcast_shapes(*(np.shape(a) for a in (pressure, temperature, dewpoint, height)))
     d = diagnose_arrays(pressure, temperature, dewpoint, height, cloud_liquid, cold_limit=cold_limit,
                         airmass=airmass, **thresholds)
-    z = np.broadcast_to(np.asarray(height, dtype=float), shape)
-    t = np.broadcast_to(np.asarray(temperature, dtype=float), shape)
-    d.update(column_summaries(t, z, d["supercooled"], d["valid"]))
+    d.update(column_summaries(temperature, height, d["supercooled"], d["valid"]))
     if airspeed is None:
         return d
     from icing.physics.accretion import accretion_core
-
-    valid = d["valid"]
-    icing = d["supercooled"] & valid & (d["lwc"] > 0)
-    rate = np.where(valid, 0.0, np.nan)
-    ice = np.where(valid, 0, -1).astype(np.int8)
-    idx = np.flatnonzero(icing)
-    if idx.size:  # only the supercooled levels (a small share of a grid) go through the heat balance
-        p = np.broadcast_to(np.asarray(pressure, dtype=float), shape).ravel()[idx]
-        core = accretion_core(d["lwc"].ravel()[idx] / 1000.0, d["mvd"].ravel()[idx] * 1e-6, float(airspeed),
-                              t.ravel()[idx], p, float(body_diameter))
-        rate.ravel()[idx] = core["thickness_rate"]
-        ice.ravel()[idx] = core["ice_type"]
-    n = shape[-1]
-    code = np.empty(shape, np.int8)
-    worst = np.empty(shape[:-1], np.int8)
-    max_rate = np.empty(shape[:-1])
-    _compiled_potential()(rate.reshape(-1, n), valid.reshape(-1, n), code.reshape(-1, n), worst.reshape(-1),
-                          max_rate.reshape(-1))
-    # the rate's words held to what they mean for this aircraft (as on a route: the same function)
     from icing.physics.envelopes import intensity_for_conditions
 
-    code = intensity_for_conditions(code, d["lwc"], d["mvd"], t - thermo.T0, d["large_drop"], icing_certified)
-    worst = np.where(worst < 0, worst, code.max(axis=-1)).astype(np.int8)  # (words 0/unknown are never changed)
-    rate *= 1000.0  # m/s to mm/h, as (rate * 1000) * 3600
-    rate *= 3600.0
-    d.update({"potential_rate": rate, "potential_intensity": code, "ice_type": ice,
-              "max_potential_intensity": worst, "max_potential_rate": max_rate})
+    n = shape[-1]
+    rows = [_rows(d[k], shape, dt) for k, dt in (("valid", bool), ("supercooled", bool), ("lwc", float),
+                                                 ("mvd", float), ("large_drop", np.int8))]
+    valid, supercooled, lwc, mvd, large = rows
+    t = _rows(temperature, shape)
+    potential, icing_levels = _compiled_potential()
+    idx = np.empty(valid.size, np.int64)
+    idx = idx[:icing_levels(supercooled.reshape(-1), valid.reshape(-1), lwc.reshape(-1), idx)]
+    # only the supercooled levels (a small share of a grid) go through the heat balance
+    p = _rows(pressure, shape)[idx // n, idx % n]  # (a shared pressure row is not copied out to every column)
+    core = accretion_core(lwc.reshape(-1)[idx] / 1000.0, mvd.reshape(-1)[idx] * 1e-6, float(airspeed),
+                          t.reshape(-1)[idx], p, float(body_diameter))
+    rate = np.empty(valid.shape)
+    ice = np.empty(valid.shape, np.int8)
+    code = np.empty(valid.shape, np.int8)
+    worst = np.empty(valid.shape[0], np.int8)
+    max_rate = np.empty(valid.shape[0])
+    changeable = np.empty(valid.size, np.int64)
+    changeable = changeable[:potential(valid, idx, core["thickness_rate"], core["ice_type"], t, large, rate, ice,
+                                       code, worst, max_rate, changeable)]
+    if changeable.size:  # the rate's words held to what they mean for this aircraft (as on a route)
+        flat = code.reshape(-1)
+        flat[changeable] = intensity_for_conditions(
+            flat[changeable], lwc.reshape(-1)[changeable], mvd.reshape(-1)[changeable],
+            t.reshape(-1)[changeable] - thermo.T0, large.reshape(-1)[changeable], icing_certified)
+        cols = np.unique(changeable // n)  # (words 0/unknown of a column are never changed)
+        worst[cols] = np.where(worst[cols] < 0, worst[cols], code[cols].max(axis=-1))
+    lead = shape[:-1]
+    d.update({"potential_rate": rate.reshape(shape), "potential_intensity": code.reshape(shape),
+              "ice_type": ice.reshape(shape), "max_potential_intensity": worst.reshape(lead),
+              "max_potential_rate": max_rate.reshape(lead)})
     return d
 
 
