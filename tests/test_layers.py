@@ -319,3 +319,20 @@ def test_snow_survival_distance_falls_with_dryness():
     ice saturation (diffusional growth, Rogers and Yau 1989 eq. 9.4: the rate is proportional to 1 - S_i)."""
     d = [precipitation.snow_survival_distance(263.15, 70000.0, rh) for rh in (100.0, 80.0, 60.0, 40.0)]
     assert d[0] == np.inf and d[1] > d[2] > d[3] > 500.0
+
+
+def test_threshold_interpolation_equals_numpy_interp():
+    """The column kernels' table interpolation (cloud.interp and the walked cloud.interp_from) equals
+    numpy.interp exactly, at random heights in any order, at the nodes, beyond both ends and for NaN and inf."""
+    xp = np.asarray(cloud.ZHANG_HEIGHTS_M, dtype=float)
+    fp = np.asarray(cloud.ZHANG_MIN_RH, dtype=float)
+    rng = np.random.default_rng(3)
+    x = np.concatenate([rng.uniform(-1000.0, 15000.0, 2000), np.sort(rng.uniform(0.0, 14000.0, 500)), xp,
+                        [np.nan, np.inf, -np.inf]])
+    j = 0
+    for v in x:
+        walked, j = cloud.interp_from(v, xp, fp, j)
+        ref = np.interp(v, xp, fp)
+        assert walked == ref or (np.isnan(walked) and np.isnan(ref)), v
+        one = cloud.interp(v, xp, fp)
+        assert one == ref or (np.isnan(one) and np.isnan(ref)), v

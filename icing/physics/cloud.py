@@ -15,7 +15,7 @@ from icing.physics.jit import jitable
 
 __all__ = [
     "ZHANG_HEIGHTS_M", "ZHANG_MIN_RH", "ZHANG_MAX_RH", "ZHANG_INTER_RH", "CLOUD_DEFAULTS", "CLOUD_SETTINGS",
-    "zhang_thresholds", "interp", "runs", "run_bounds", "cloud_in_column", "cloud_mask",
+    "zhang_thresholds", "interp", "interp_from", "runs", "run_bounds", "cloud_in_column", "cloud_mask",
 ]
 
 # Zhang, Chen, Li, Fan, Peng, Yu and Cribb (2010), J. Geophys. Res. 115, D00K30, Table 1, after Wang and
@@ -63,26 +63,30 @@ def zhang_thresholds(height_agl, values=ZHANG_MIN_RH):
 
 @jitable
 def interp(x, xp, fp):
-    """:func:`numpy.interp` at one point (numpy's algorithm: constant beyond the ends, NaN for NaN), for the
-    column kernels."""
+    """:func:`numpy.interp` at one point (constant beyond the ends, NaN for NaN; ``xp`` strictly increasing),
+    for the column kernels: :func:`interp_from` searched from the first interval."""
+    return interp_from(x, xp, fp, 0)[0]
+
+
+@jitable
+def interp_from(x, xp, fp, j):
+    """:func:`interp` with its search started at interval ``j`` (any valid one): returns the value and the
+    interval it lies in, the start for the next point. Up a column the heights rise, so the threshold tables
+    are walked level by level instead of searched afresh (numpy's arithmetic, the same results)."""
     m = xp.size
     if x != x:
-        return x
+        return x, j
     if x < xp[0]:
-        return fp[0]
+        return fp[0], 0
     if x >= xp[m - 1]:
-        return fp[m - 1]
-    lo = 0
-    hi = m - 1
-    while hi - lo > 1:  # xp[lo] <= x < xp[hi]
-        mid = (lo + hi) >> 1
-        if xp[mid] <= x:
-            lo = mid
-        else:
-            hi = mid
-    if xp[lo] == x:
-        return fp[lo]
-    return (fp[lo + 1] - fp[lo]) / (xp[lo + 1] - xp[lo]) * (x - xp[lo]) + fp[lo]
+        return fp[m - 1], m - 2
+    while x >= xp[j + 1]:  # xp[j] <= x < xp[j + 1]
+        j += 1
+    while x < xp[j]:
+        j -= 1
+    if xp[j] == x:
+        return fp[j], j
+    return (fp[j + 1] - fp[j]) / (xp[j + 1] - xp[j]) * (x - xp[j]) + fp[j], j
 
 
 @jitable

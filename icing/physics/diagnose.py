@@ -173,6 +173,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     if not np.isfinite(z0):
         z0 = z[0]
     humidity_complete = True
+    j = 0  # interval of the threshold table, walked up the column
     for k in range(n):
         tk = t[k]
         tdk = td[k] if td[k] <= tk else (tk if td[k] == td[k] else td[k])  # dewpoint at most the temperature
@@ -183,7 +184,7 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
         rh_i[k] = ri
         rh_c[k] = ri if tk < thermo.T0 else rw
         z_agl[k] = z[k] - z0
-        min_rh[k] = cloud.interp(z_agl[k], heights, min_rh_table)
+        min_rh[k], j = cloud.interp_from(z_agl[k], heights, min_rh_table, j)
         if np.isfinite(tk) and not np.isfinite(rw):
             humidity_complete = False
     cloud.cloud_in_column(z_agl, rh_c, min_rh, heights, max_rh_table, inter_rh_table, settings, in_cloud, zb,
