@@ -173,13 +173,12 @@ def diagnose_column(p, lnp, t, td, z, cl, has_cl, cold_limit, settings, heights,
     if not np.isfinite(z0):
         z0 = z[0]
     humidity_complete = True
+    thermo.relative_humidity_column(t, td, saturation, rh_w, rh_i, True)  # (dewpoint at most the temperature)
     j = 0  # interval of the threshold table, walked up the column
     for k in range(n):
         tk = t[k]
-        tdk = td[k] if td[k] <= tk else (tk if td[k] == td[k] else td[k])  # dewpoint at most the temperature
-        rw, ri = thermo.relative_humidities(tk, tdk, saturation)
-        rw *= 100.0
-        ri *= 100.0
+        rw = rh_w[k] * 100.0
+        ri = rh_i[k] * 100.0
         rh_w[k] = rw
         rh_i[k] = ri
         rh_c[k] = ri if tk < thermo.T0 else rw

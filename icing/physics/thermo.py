@@ -17,7 +17,7 @@ __all__ = [
     "RD", "RV", "EPSILON", "G0", "CP_D", "T0", "KAPPA", "L_FUSION", "L_VAPOUR", "L_SUBLIMATION",
     "ln_saturation_vapor_pressure_water", "ln_saturation_vapor_pressure_ice",
     "SATURATION_TABLE_RANGE_K", "SATURATION_TABLE_STEP_K", "saturation_tables", "table_position", "table_value",
-    "relative_humidities",
+    "relative_humidity_column",
     "saturation_vapor_pressure_water", "saturation_vapor_pressure_ice", "dewpoint_from_vapor_pressure",
     "air_viscosity", "air_thermal_conductivity", "vapor_diffusivity",
     "relative_humidity_water", "relative_humidity_ice", "dewpoint_from_relative_humidity",
@@ -196,28 +196,37 @@ def table_value(table, i, w0, w1, w2, w3):
 
 
 @jitable
-def relative_humidities(temperature, dewpoint, tables):
-    """Relative humidity over liquid water and over ice (fractions) at one temperature and dewpoint (K), from
-    the ``tables`` of :func:`saturation_tables` (the formulas outside them): e_w(Td) / e_w(T) and
-    e_w(Td) / e_i(T). The dewpoint is over water (WMO convention); above 0 degC the ice value has no physical
-    meaning and is the ratio to e_i all the same. The one definition of relative humidity in the package."""
+def relative_humidity_column(temperature, dewpoint, tables, rh_water, rh_ice, cap_dewpoint):
+    """Relative humidity over liquid water and over ice (fractions) at each level of 1-D arrays of temperature
+    and dewpoint (K), into ``rh_water`` and ``rh_ice``: e_w(Td) / e_w(T) and e_w(Td) / e_i(T), from the
+    ``tables`` of :func:`saturation_tables` (the formulas outside them). The dewpoint is over water (WMO
+    convention); above 0 degC the ice value has no physical meaning and is the ratio to e_i all the same.
+    With ``cap_dewpoint`` a dewpoint above the temperature counts as the temperature (saturation). The one
+    definition of relative humidity in the package; a loop over a column (a call a level would cost a third
+    more in the kernels)."""
     ew, ei = tables
-    i, a0, a1, a2, a3 = table_position(temperature)
-    j, b0, b1, b2, b3 = table_position(dewpoint)
-    if j >= 0:
-        e = table_value(ew, j, b0, b1, b2, b3)
-    else:
-        e = np.exp(ln_saturation_vapor_pressure_water(dewpoint, np.log(dewpoint)))
-    if i >= 0:
-        return e / table_value(ew, i, a0, a1, a2, a3), e / table_value(ei, i, a0, a1, a2, a3)
-    lt = np.log(temperature)
-    return (e / np.exp(ln_saturation_vapor_pressure_water(temperature, lt)),
-            e / np.exp(ln_saturation_vapor_pressure_ice(temperature, lt)))
+    for k in range(temperature.size):
+        t = temperature[k]
+        td = dewpoint[k]
+        if cap_dewpoint and td > t:
+            td = t
+        i, a0, a1, a2, a3 = table_position(t)
+        j, b0, b1, b2, b3 = table_position(td)
+        if j >= 0:
+            e = table_value(ew, j, b0, b1, b2, b3)
+        else:
+            e = np.exp(ln_saturation_vapor_pressure_water(td, np.log(td)))
+        if i >= 0:  # (a ratio, so that saturation, Td = T, is exactly 1 over water)
+            rh_water[k] = e / table_value(ew, i, a0, a1, a2, a3)
+            rh_ice[k] = e / table_value(ei, i, a0, a1, a2, a3)
+        else:
+            lt = np.log(t)
+            rh_water[k] = e / np.exp(ln_saturation_vapor_pressure_water(t, lt))
+            rh_ice[k] = e / np.exp(ln_saturation_vapor_pressure_ice(t, lt))
 
 
 def _humidity_rows(t, td, tables, rh_w, rh_i):
-    for k in range(t.size):
-        rh_w[k], rh_i[k] = relative_humidities(t[k], td[k], tables)
+    relative_humidity_column(t, td, tables, rh_w, rh_i, False)
 
 
 @functools.lru_cache(maxsize=1)
@@ -237,7 +246,7 @@ def _relative_humidity(temperature, dewpoint):
 
 def relative_humidity_water(temperature, dewpoint):
     """Relative humidity with respect to liquid water (fraction, 0-1) from temperature and dewpoint (K), by
-    :func:`relative_humidities` (arrays broadcast)."""
+    :func:`relative_humidity_column` (arrays broadcast)."""
     return _relative_humidity(temperature, dewpoint)[0]
 
 
