@@ -145,6 +145,8 @@ def test_mvd_from_lwc_and_number():
     assert_allclose(cont * 1e6, (6 * 3e-4 / (np.pi * 1000 * 2.9e8)) ** (1 / 3) * 1e6 * 1.235, rtol=0.01)
     assert mar > cont
     assert np.isnan(microphysics.median_volume_diameter(0.0))
+    # the same definition solved for the LWC (used for the warm-rain threshold) gives the LWC back
+    assert_allclose(microphysics.liquid_water_at_mean_volume_diameter(dv, 290e6), lwc, rtol=1e-12)
 
 
 def test_subadiabatic_factors():

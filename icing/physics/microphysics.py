@@ -17,7 +17,8 @@ __all__ = [
     "HOMOGENEOUS_FREEZING_K", "SUBADIABATIC_FACTOR", "DROPLET_NUMBER", "SPECTRAL_SHAPE_K", "RHO_WATER",
     "liquid_fraction", "check_cold_limit", "adiabatic_fraction", "subadiabatic_factor", "subadiabatic_factors",
     "cloud_kind_factor", "droplet_number_concentration",
-    "mean_volume_diameter", "mvd_to_mean_volume_ratio", "spectral_shape_k", "median_volume_diameter",
+    "mean_volume_diameter", "liquid_water_at_mean_volume_diameter", "mvd_to_mean_volume_ratio", "spectral_shape_k",
+    "median_volume_diameter",
 ]
 
 HOMOGENEOUS_FREEZING_K = 224.8  # K: pure water can stay liquid down to about here (homogeneous nucleation)
@@ -180,6 +181,14 @@ def mean_volume_diameter(lwc, number_concentration):
     gives zero; :func:`median_volume_diameter` gives NaN where there is no liquid.
     """
     return np.cbrt(6.0 * lwc / (np.pi * RHO_WATER * number_concentration))
+
+
+@jitable
+def liquid_water_at_mean_volume_diameter(diameter, number_concentration):
+    """LWC (kg/m3) at which droplets of ``number_concentration`` per m3 have the mean volume diameter
+    ``diameter`` (m): the same definition as :func:`mean_volume_diameter`, solved for the LWC (no cube root,
+    for thresholds compared many times a column)."""
+    return np.pi / 6.0 * RHO_WATER * number_concentration * diameter**3
 
 
 def median_volume_diameter(lwc, airmass=DEFAULT_AIRMASS, number_concentration=None):

@@ -100,15 +100,19 @@ def warm_rain_grade(lwc, lwc_upper, number_concentration, mean_volume_radius_thr
     only at ``lwc_upper``, the most the layer can hold (the adiabatic value, or twice a model's cloud water: an
     LWC is uncertain by a factor of two).
 
-    The radius is :func:`icing.physics.microphysics.mean_volume_diameter` / 2; the threshold is the effective
-    radius ``warm_rain_effective_radius_m`` of :data:`icing.physics.cloud.CLOUD_DEFAULTS` as a mean volume
-    radius (the caller converts it with the spectrum shape of Martin et al. 1994). Depth and droplet number
-    enter through the water at the top of the cloud and the number: a deep cloud with few droplets grows large
-    ones (Rasmussen et al. 2002), a thin or polluted one does not.
+    The radius is :func:`icing.physics.microphysics.mean_volume_diameter` / 2, compared as the LWC at which it
+    reaches the threshold (:func:`icing.physics.microphysics.liquid_water_at_mean_volume_diameter`: the cube
+    roots this saves, two for every cloud layer of a column, were a tenth of the diagnosis kernel). The
+    threshold is the effective radius ``warm_rain_effective_radius_m`` of :data:`icing.physics.cloud.CLOUD_DEFAULTS`
+    as a mean volume radius (the caller converts it with the spectrum shape of Martin et al. 1994). Depth and
+    droplet number enter through the water at the top of the cloud and the number: a deep cloud with few
+    droplets grows large ones (Rasmussen et al. 2002), a thin or polluted one does not.
     """
-    if 0.5 * microphysics.mean_volume_diameter(lwc, number_concentration) >= mean_volume_radius_threshold:
+    needed = microphysics.liquid_water_at_mean_volume_diameter(2.0 * mean_volume_radius_threshold,
+                                                               number_concentration)
+    if lwc >= needed:
         return 2
-    if 0.5 * microphysics.mean_volume_diameter(lwc_upper, number_concentration) >= mean_volume_radius_threshold:
+    if lwc_upper >= needed:
         return 1
     return 0
 
