@@ -80,7 +80,10 @@ def air_viscosity(temperature):
     :math:`\\mu = \\beta T^{3/2} / (T + S)`, beta = 1.458e-6 kg/(m s K^0.5), S = 110.4 K; valid for the lower
     atmosphere (about 150-500 K). Floats, arrays and the compiled kernels alike.
     """
-    return 1.458e-6 * temperature**1.5 / (temperature + 110.4)
+    return 1.458e-6 * temperature * np.sqrt(temperature) / (temperature + 110.4)  # (T^1.5: a root, not a power)
+
+
+_MINUS_12_LN10 = -12.0 * np.log(10.0)  # 10^(-12/T) as exp(-12 ln 10 / T): general powers are slow compiled
 
 
 @jitable
@@ -90,7 +93,8 @@ def air_thermal_conductivity(temperature):
     U.S. Standard Atmosphere 1976, eq. (53): :math:`k = 2.64638\\times10^{-3} T^{3/2} / (T + 245.4 \\cdot
     10^{-12/T})`, valid for the lower atmosphere.
     """
-    return 2.64638e-3 * temperature**1.5 / (temperature + 245.4 * 10.0 ** (-12.0 / temperature))
+    return (2.64638e-3 * temperature * np.sqrt(temperature)
+            / (temperature + 245.4 * np.exp(_MINUS_12_LN10 / temperature)))
 
 
 @jitable
@@ -102,7 +106,7 @@ def vapor_diffusivity(temperature, pressure):
     Pruppacher and Klett (1997), Microphysics of Clouds and Precipitation, eq. (13-3), for -40 to 40 degC
     (from memory).
     """
-    return 2.11e-5 * (temperature / T0) ** 1.94 * (101325.0 / pressure)
+    return 2.11e-5 * np.exp(1.94 * np.log(temperature / T0)) * (101325.0 / pressure)
 
 
 def saturation_vapor_pressure_water(temperature):
