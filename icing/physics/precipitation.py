@@ -203,10 +203,11 @@ def _flake_size_rate(size, coef, nu, sc3):
     number^(1/3) ``sc3``: 4 D f (1 - S_i) / (F_k + F_d) / v, over dm/dD = a b D^(b-1)."""
     a, b = SNOWFLAKE_MASS
     c, d = SNOWFLAKE_SPEED
+    # With v = c D^d the ventilation term sqrt(v D / nu) is sqrt(c / nu) D^((1 + d) / 2) and D / (v D^(b-1)) is
+    # D^(2 - b - d) / c: two powers of one logarithm.
     ln_d = np.log(size)
-    v = c * np.exp(d * ln_d)
-    vent = 0.86 + 0.28 * sc3 * np.sqrt(v * size / nu)
-    return -coef * size * vent / (v * a * b * np.exp((b - 1.0) * ln_d))
+    vent = 0.86 + 0.28 * sc3 * np.sqrt(c / nu) * np.exp(0.5 * (1.0 + d) * ln_d)
+    return -coef * vent * np.exp((2.0 - b - d) * ln_d) / (a * b * c)
 
 
 @jitable
