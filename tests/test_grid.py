@@ -50,13 +50,25 @@ def _synthetic(nt=2, ny=6, nx=7, seed=0):
 
 
 def test_dask_equals_eager():
-    """The lazy dask result equals the eager numpy result on the same field (dask's own apply_gufunc)."""
+    """The lazy dask result (one dask.array.blockwise task a chunk) equals the eager numpy result on the same
+    field."""
     pytest.importorskip("dask")
     ds = _synthetic()
     eager = diagnose_grid(ds, "turboprop")
     lazy = diagnose_grid(chunk_model(ds, 200), "turboprop")
     assert lazy["lwc"].chunks is not None and lazy["temperature"].data.npartitions > 1
     xr.testing.assert_identical(eager, lazy.compute())
+
+
+def test_chunk_model_even_tiles():
+    """chunk_model splits latitude and longitude into tiles of even sizes (within one column of each other), none
+    larger than the square tile of the requested points, one time a chunk, all levels in one chunk
+    (structural: no physics)."""
+    pytest.importorskip("dask")
+    ds = _synthetic(nt=2, ny=6, nx=7)
+    chunks = chunk_model(ds, 13 * 9)["temperature"].chunks  # 9 columns a chunk: tiles of at most 3 x 3
+    assert chunks[0] == (1, 1) and chunks[3] == (13,)
+    assert chunks[1] == (3, 3) and chunks[2] == (3, 2, 2)
 
 
 def test_distributed_equals_threaded():
