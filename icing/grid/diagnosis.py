@@ -297,7 +297,10 @@ def _aircraft(aircraft, airspeed_kt=None):
 
 
 def _scaled(a, scale, offset):
-    """``a * scale + offset`` in a new float array (one allocation: the block itself is never written)."""
+    """``a * scale + offset`` in a new float array (one allocation, one pass for a pure offset such as degC to K:
+    the block itself is never written)."""
+    if scale == 1.0:
+        return np.add(a, offset, dtype=float)
     out = np.multiply(a, scale, dtype=float)
     out += offset
     return out
