@@ -2,9 +2,9 @@
 
 :func:`diagnose_grid` runs the level diagnostics of :func:`icing.physics.diagnose.diagnose_arrays` and, for a named
 aircraft, the accretion-rate potential of :func:`icing.physics.accretion.accretion_core` on every column of a gridded
-profile Dataset (:func:`icing.io.model.read_model`) through one :func:`xarray.apply_ufunc` call with
-``dask="parallelized"``: chunks across time and space, every level of a column in one chunk, nothing computed
-until the result is written (:func:`write_grid`, netCDF or zarr) or loaded. It adds the 2-D summaries of each
+profile Dataset (:func:`icing.io.model.read_model`) through one :func:`dask.array.blockwise` task a chunk:
+chunks across time and space, every level of a column in one chunk, nothing computed until the result is
+written (:func:`write_grid`, netCDF or zarr) or loaded. It adds the 2-D summaries of each
 column: the freezing level(s), the base and top of the supercooled levels and the largest potential intensity.
 
 Scale-out uses dask itself, nothing home-made (:func:`scheduler`): the threaded scheduler by default, a
