@@ -61,14 +61,14 @@ def test_dask_equals_eager():
 
 
 def test_chunk_model_even_tiles():
-    """chunk_model splits latitude and longitude into tiles of even sizes (within one column of each other), none
-    larger than the square tile of the requested points, one time a chunk, all levels in one chunk
-    (structural: no physics)."""
+    """chunk_model splits latitude and longitude into tiles of even sizes (within one column of each other), as
+    many as bring them nearest the square tile of the requested points, one time a chunk, all levels in one
+    chunk (structural: no physics)."""
     pytest.importorskip("dask")
     ds = _synthetic(nt=2, ny=6, nx=7)
-    chunks = chunk_model(ds, 13 * 9)["temperature"].chunks  # 9 columns a chunk: tiles of at most 3 x 3
+    chunks = chunk_model(ds, 13 * 9)["temperature"].chunks  # 9 columns a chunk: tiles of about 3 x 3
     assert chunks[0] == (1, 1) and chunks[3] == (13,)
-    assert chunks[1] == (3, 3) and chunks[2] == (3, 2, 2)
+    assert chunks[1] == (3, 3) and chunks[2] == (4, 3)  # 7 columns: two tiles of 4 and 3, not 3 + 3 + 1
 
 
 def test_distributed_equals_threaded():
