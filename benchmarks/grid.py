@@ -17,11 +17,11 @@ sides see the same load on a shared machine; each pair twice, each side a single
 three (as ``benchmarks/diagnose.py`` times both sides). Run: ``python benchmarks/grid.py [--times 8]``.
 
 Measured on the 2-CPU development machine, a virtual machine whose speed moves from run to run (the MetPy loop
-alone ran at 5,500-10,800 level-points/s, and two threads of pure arithmetic ran 1.3-1.9x one), noisy humidity,
-6 times, chunk_model's chunks, load 0.6-1.3: dask threaded 15.7-23.0 M level-points/s (best of 5), eager
-13.9-18.7, distributed 9.0-13.8. Paired with the MetPy loop, 9 pairs a run, four runs: medians 1,913-2,030x
-with each side best of three and 1,923-2,254x with single passes (single pairs 1,490-3,070x). The 2,000x target
-sits at the middle of that spread: met in about half the runs, not reliably.
+alone ran at 6,100-10,000 level-points/s, and two threads of pure arithmetic ran 1.3-1.9x one), noisy humidity,
+6 times, chunk_model's chunks (121 x 81 columns), load 0.6-1.2, eight runs of 9 pairs: dask threaded 16.1-21.8
+M level-points/s (best of 5), eager 10.6-20.5, distributed 7.9-12.0. Against the MetPy loop: medians
+2,050-2,579x with each side best of three (every run at or above the 2,000x target), 1,979-2,607x with single
+passes (five runs of eight at or above it; single pairs 1,380-3,450x). The target is met, at the margin.
 
 Where the time goes (one thread, the compiled kernel cut stage by stage and timed against itself in the same
 process, and line timings of grid_core, on the benchmark grid): about 75 ns a level-point. The diagnosis kernel
@@ -30,9 +30,9 @@ is about 50 ns of it: the humidities and cloud thresholds about 18 (Murphy and K
 curve 3-4), precipitation source, type and large drops about 12, the rest 3. The rest of a chunk: the heat
 balance of the supercooled levels (1.2 % of the levels, numpy) about 10, potential codes 3.5, column summaries
 3, the envelope words 2.5; dask's own cost and the unit conversion about 5 (one blockwise task a chunk, the
-blocks not copied). On the cloudier profiles of ``benchmarks/diagnose.py`` the kernel takes about 190 ns a
-level, half of it integrating the sublimation of snow below cloud bases (some 20 intervals a snowing column).
-What was tried and dropped is in DEVELOPERS.md.
+blocks not copied, even tiles of about the requested size). On the cloudier profiles of
+``benchmarks/diagnose.py`` the kernel takes about 190 ns a level, half of it integrating the sublimation of snow
+below cloud bases (some 20 intervals a snowing column). What was tried and dropped is in DEVELOPERS.md.
 """
 
 from __future__ import annotations
