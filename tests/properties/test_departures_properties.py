@@ -1,22 +1,13 @@
 """Property tests of the departure window (hypothesis): unknown is never best; the window holds every step."""
 
-import numpy as np
 import pandas as pd
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from one_report import SOURCE  # (the test's own folder, on sys.path under pytest)
 
 from icing.flight.departures import screen_departures
 from icing.flight.route import Route
-from icing.flight.sources import SoundingSource
-from icing.profile import build_profile
 
-P = np.array([1000.0, 900.0, 800.0, 700.0, 600.0, 500.0, 400.0, 300.0])
-T = np.array([4.0, -3.0, -8.0, -13.0, -19.0, -26.0, -36.0, -48.0])
-DD = np.array([3.0, 0.2, 0.2, 0.3, 12.0, 20.0, 20.0, 20.0])
-# One report (constructed), used up to 6 h either side: windows around it reach past the data on both sides.
-SOURCE = SoundingSource([build_profile(P, T, dewpoint=T - DD, station="Q1", latitude=50.0, longitude=-20.0,
-                                       elevation=0.0, time="2026-01-15T06:00Z")], max_distance_km=250.0,
-                        max_age_hours=6.0)
 ROUTE = Route.from_points([("A", 50.0, -20.5, "FL080"), ("B", 50.8, -19.0, "FL080")], departure="2026-01-15T06:00Z")
 STEPS = {"PT20M": 20, "PT1H": 60, "90min": 90, "PT2H": 120}  # minutes
 
